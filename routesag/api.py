@@ -1,0 +1,66 @@
+"""The Python API: ``routesag.run("project.toml")``."""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from routesag.errors import OutputError
+from routesag.pipeline import RunContext, assemble_chain, run_chain
+from routesag.project import Project, load_project
+
+
+@dataclass
+class RunResult:
+    """What a run produced: the layers (GeoDataFrames) and where they were written."""
+
+    layers: dict
+    path: Path | None
+    project: Project
+    warnings: list[str] = field(default_factory=list)
+    notes: dict = field(default_factory=dict)
+
+    def __getitem__(self, name):
+        return self.layers[name]
+
+
+def run(project_path, out=None, progress=None) -> RunResult:
+    """Run the pipeline of a project file and write its GeoPackage.
+
+    Parameters
+    ----------
+    project_path : str or Path
+        The TOML project file.
+    out : str or Path, optional
+        Output GeoPackage; overrides ``[output] path``.
+    progress : callable, optional
+        Called with each stage's name as it starts.
+
+    Returns
+    -------
+    RunResult
+        ``result.layers[name]`` is a GeoDataFrame (or DataFrame for tables).
+    """
+    project = load_project(project_path, output=out)
+    check_destination(project)
+    chain = assemble_chain(project.pipeline_stages)
+    ctx = RunContext()
+    data = {"project": project}
+    try:
+        run_chain(chain, data, ctx, progress=progress)
+    finally:
+        terrain = data.get("terrain")
+        if terrain is not None and hasattr(terrain, "close"):
+            terrain.close()
+    layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
+    return RunResult(layers=layers, path=data.get("geopackage"), project=project,
+                     warnings=ctx.warnings, notes=ctx.notes)
+
+
+def check_destination(project: Project) -> None:
+    """Refuse an output over an input file or into a missing folder, before any work is done."""
+    out = project.output_path
+    inputs = {p.resolve() for p in project.input_paths().values()}
+    if out.resolve() in inputs:
+        raise OutputError(f"output {out} is one of the input files; choose another output path")
+    if not out.parent.is_dir():
+        raise OutputError(f"output folder {out.parent} does not exist")

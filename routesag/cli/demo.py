@@ -1,0 +1,36 @@
+"""``routesag demo``: the main job on the bundled sample survey."""
+from pathlib import Path
+
+import click
+
+from routesag.cli.options import fail_on_violation_option, finish, handle_errors
+
+DEFAULT_OUT = "routesag-demo.gpkg"
+
+
+def sample_project() -> Path:
+    """The bundled sample survey's project file; generated into a user cache if the folder is absent."""
+    here = Path(__file__).resolve().parents[2] / "sample_survey" / "project.toml"
+    if here.is_file():
+        return here
+    from routesag.sample import write_sample_survey
+
+    folder = Path.home() / ".cache" / "routesag" / "sample_survey"
+    if not (folder / "project.toml").is_file():
+        folder.mkdir(parents=True, exist_ok=True)
+        write_sample_survey(folder)
+    return folder / "project.toml"
+
+
+@click.command("demo")
+@click.option("-o", "--out", type=click.Path(dir_okay=False), default=DEFAULT_OUT, show_default=True,
+              help="Output GeoPackage.")
+@fail_on_violation_option
+@handle_errors
+def demo_command(out, fail_on_violation):
+    """Run the bundled sample survey and write routesag-demo.gpkg here."""
+    from routesag.api import run
+
+    project = sample_project()
+    click.echo(f"sample survey: {project.parent}")
+    finish(run(project, out=Path(out).resolve()), fail_on_violation, per_span=True)

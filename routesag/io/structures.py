@@ -1,0 +1,227 @@
+"""Read and validate the structures layer.
+
+Raw layer -> checked GeoDataFrame in a projected working CRS in metres. Every
+problem in the layer is collected and raised together as one DataError, each
+message naming the file, the feature (structure_id or row) and the field.
+"""
+from __future__ import annotations
+
+import difflib
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+from pyproj import CRS
+
+from routesag.errors import DataError
+
+REQUIRED_FIELDS = ("structure_id", "seq")
+OPTIONAL_FIELDS = ("line_id", "kind", "attach_height_m", "ground_z_m")
+KINDS = ("suspension", "strain")
+MAX_ATTACH_HEIGHT_M = 200.0
+DEFAULT_LINE_ID = "line"
+
+
+def read_structures_file(path, layer=None, crs=None) -> gpd.GeoDataFrame:
+    """Read structures from any vector source GDAL reads, or a CSV with x, y.
+
+    Parameters
+    ----------
+    path : str or Path
+        Vector file or CSV.
+    layer : str, optional
+        Layer inside a multi-layer source.
+    crs : str, optional
+        CRS for a source that has none (always needed for CSV).
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise DataError(f"structures file {path}: not found")
+    if path.suffix.lower() == ".csv":
+        return _read_csv(path, crs)
+    try:
+        layers = [name for name, _ in pyogrio.list_layers(path)]
+    except Exception as exc:  # GDAL raises several types for unreadable files
+        raise DataError(f"structures file {path}: cannot be read as a vector dataset ({_short(exc)})") from None
+    if layer is not None and layer not in layers:
+        raise DataError(f"structures file {path}: no layer {layer!r}; layers: {', '.join(layers) or 'none'}")
+    try:
+        gdf = pyogrio.read_dataframe(path, layer=layer)
+    except Exception as exc:
+        raise DataError(f"structures file {path}: cannot be read ({_short(exc)})") from None
+    if not isinstance(gdf, gpd.GeoDataFrame) or gdf.geometry is None:
+        raise DataError(f"structures file {path}: layer has no geometry; expected points")
+    if gdf.crs is None and crs:
+        gdf = gdf.set_crs(crs)
+    return gdf
+
+
+def _read_csv(path: Path, crs) -> gpd.GeoDataFrame:
+    try:
+        df = pd.read_csv(path)
+    except Exception as exc:
+        raise DataError(f"structures file {path}: cannot be read as CSV ({_short(exc)})") from None
+    missing = [c for c in ("x", "y") if c not in df.columns]
+    if missing:
+        raise DataError([f"structures file {path}: missing column {c!r}{_near(c, df.columns)}" for c in missing])
+    if not crs:
+        raise DataError(f"structures file {path}: a CSV carries no CRS; set [inputs] crs in the project file")
+    bad = [i for i in range(len(df)) if not (_is_number(df["x"].iloc[i]) and _is_number(df["y"].iloc[i]))]
+    if bad:
+        raise DataError([f"structures file {path}: row {i + 1}: x/y must be numbers" for i in bad])
+    geometry = gpd.points_from_xy(df["x"].astype(float), df["y"].astype(float))
+    return gpd.GeoDataFrame(df.drop(columns=["x", "y"]), geometry=geometry, crs=crs)
+
+
+def _short(exc: Exception) -> str:
+    return str(exc).splitlines()[0][:200] if str(exc) else type(exc).__name__
+
+
+def _is_number(value) -> bool:
+    try:
+        return np.isfinite(float(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def _near(name: str, columns) -> str:
+    norm = {c.lower().replace("_", "").replace(" ", ""): c for c in map(str, columns)}
+    key = name.replace("_", "")
+    if key in norm:
+        return f" (found {norm[key]!r}: rename it to {name!r})"
+    close = difflib.get_close_matches(name, list(map(str, columns)), n=1, cutoff=0.6)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None) -> gpd.GeoDataFrame:
+    """Validate fields and geometry; return a clean frame with normalised columns.
+
+    Output columns: structure_id (str), line_id (str), seq (float), kind,
+    attach_height_m, ground_z_m (NaN when not surveyed), geometry (points).
+    """
+    problems: list[str] = []
+    where = f"structures file {source}"
+    if len(gdf) == 0:
+        raise DataError(f"{where}: the layer is empty")
+    if gdf.crs is None:
+        problems.append(f"{where}: no CRS; give the layer a CRS or set [inputs] crs in the project file")
+    for name in REQUIRED_FIELDS:
+        if name not in gdf.columns:
+            problems.append(f"{where}: missing required field {name!r}{_near(name, gdf.columns)}")
+    if problems:
+        raise DataError(problems)
+
+    out = gpd.GeoDataFrame(geometry=gdf.geometry.values, crs=gdf.crs)
+    out["structure_id"] = gdf["structure_id"].astype("string").str.strip()
+    labels = [_label(i, sid) for i, sid in enumerate(out["structure_id"])]
+    out["line_id"] = (gdf["line_id"].astype("string").fillna(DEFAULT_LINE_ID)
+                      if "line_id" in gdf.columns else DEFAULT_LINE_ID)
+    out["seq"] = _numeric(gdf["seq"], "seq", labels, where, problems, required=True)
+    out["kind"] = _kinds(gdf, labels, where, problems)
+    out["attach_height_m"] = _attach_heights(gdf, default_attach_height_m, labels, where, problems)
+    out["ground_z_m"] = (_numeric(gdf["ground_z_m"], "ground_z_m", labels, where, problems)
+                         if "ground_z_m" in gdf.columns else np.nan)
+    if "insulator_m" in gdf.columns:
+        out["insulator_m"] = _numeric(gdf["insulator_m"], "insulator_m", labels, where, problems)
+    for i, sid in enumerate(out["structure_id"]):
+        if pd.isna(sid) or sid == "":
+            problems.append(f"{where}: {labels[i]}: field 'structure_id' is empty")
+    _check_geometry(out, labels, where, problems)
+    _check_duplicates(out, labels, where, problems)
+    if problems:
+        raise DataError(problems)
+    return out
+
+
+def _label(i: int, sid) -> str:
+    return f"row {i + 1}" if pd.isna(sid) or sid == "" else f"structure {sid} (row {i + 1})"
+
+
+def _numeric(series, name, labels, where, problems, required=False) -> np.ndarray:
+    values = pd.to_numeric(series, errors="coerce").to_numpy(dtype=float)
+    for i, (raw, val) in enumerate(zip(series, values)):
+        if np.isnan(val) and not pd.isna(raw):
+            problems.append(f"{where}: {labels[i]}: field {name!r} = {raw!r} is not a number")
+        elif np.isnan(val) and required:
+            problems.append(f"{where}: {labels[i]}: field {name!r} is empty")
+    return values
+
+
+def _kinds(gdf, labels, where, problems) -> list[str]:
+    if "kind" not in gdf.columns:
+        return ["suspension"] * len(gdf)
+    kinds = []
+    for i, raw in enumerate(gdf["kind"]):
+        kind = "suspension" if pd.isna(raw) or str(raw).strip() == "" else str(raw).strip().lower()
+        if kind not in KINDS:
+            problems.append(f"{where}: {labels[i]}: field 'kind' = {raw!r}; expected one of {', '.join(KINDS)}")
+        kinds.append(kind)
+    return kinds
+
+
+def _attach_heights(gdf, default, labels, where, problems) -> np.ndarray:
+    if "attach_height_m" in gdf.columns:
+        heights = _numeric(gdf["attach_height_m"], "attach_height_m", labels, where, problems)
+    else:
+        heights = np.full(len(gdf), np.nan)
+    for i, h in enumerate(heights):
+        if np.isnan(h):
+            if default is None:
+                problems.append(f"{where}: {labels[i]}: field 'attach_height_m' is empty and the project "
+                                "sets no [line] attach_height_m default")
+            continue
+        if h <= 0 or h > MAX_ATTACH_HEIGHT_M:
+            problems.append(f"{where}: {labels[i]}: field 'attach_height_m' = {h:g} m; expected "
+                            f"0 < height <= {MAX_ATTACH_HEIGHT_M:g} m")
+    if default is not None:
+        heights = np.where(np.isnan(heights), default, heights)
+    return heights
+
+
+def _check_geometry(out, labels, where, problems) -> None:
+    for i, geom in enumerate(out.geometry):
+        if geom is None or geom.is_empty:
+            problems.append(f"{where}: {labels[i]}: geometry is empty")
+        elif geom.geom_type != "Point":
+            problems.append(f"{where}: {labels[i]}: geometry is {geom.geom_type}; expected Point")
+
+
+def _check_duplicates(out, labels, where, problems) -> None:
+    for line_id, group in out.groupby("line_id", sort=False):
+        ids = group["structure_id"].dropna()
+        for sid in sorted(set(ids[ids.duplicated()])):
+            problems.append(f"{where}: line {line_id}: structure_id {sid!r} appears more than once")
+        seq = group["seq"].dropna()
+        for value in sorted(set(seq[seq.duplicated()])):
+            rows = [labels[i] for i in group.index[group["seq"] == value]]
+            problems.append(f"{where}: line {line_id}: seq {value:g} is used by {', '.join(rows)}")
+        if len(group) < 2:
+            problems.append(f"{where}: line {line_id} has only one structure ({labels[group.index[0]]}); "
+                            "a line needs at least two")
+
+
+def working_crs(crs: CRS, lon_lat_center=None) -> tuple[CRS, str]:
+    """A projected CRS in metres for span geometry, and a note saying why.
+
+    Geographic or non-metre CRSs are replaced by the UTM zone of the data's
+    centre (WGS 84), so spans are measured in metres.
+    """
+    crs = CRS.from_user_input(crs)
+    unit = crs.axis_info[0].unit_name if crs.axis_info else ""
+    if crs.is_projected and unit in ("metre", "meter"):
+        return crs, f"structures CRS {crs.to_string()} used as is (projected, metres)"
+    lon, lat = lon_lat_center
+    zone = int((lon + 180) // 6) + 1
+    epsg = (32600 if lat >= 0 else 32700) + zone
+    utm = CRS.from_epsg(epsg)
+    why = "geographic (lat/lon)" if crs.is_geographic else f"horizontal unit {unit!r}"
+    return utm, f"structures CRS {crs.to_string()} is {why}: reprojected to {utm.to_string()} (UTM zone {zone})"
+
+
+def to_working_crs(gdf: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFrame, CRS, str]:
+    """Reproject structures to a projected metre CRS (see :func:`working_crs`)."""
+    center = gdf.to_crs(4326).geometry.union_all().centroid
+    crs, note = working_crs(gdf.crs, (center.x, center.y))
+    return (gdf if CRS(gdf.crs) == crs else gdf.to_crs(crs)), crs, note

@@ -1,0 +1,389 @@
+"""Windowed sampling of a single-band terrain raster (DTM/DSM from LiDAR).
+
+The raster is opened once; every read is a ``window=`` read of the smallest
+block that covers the points asked for, so a country-wide DTM costs no more
+memory than the few hundred cells under one span.
+"""
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pyproj
+import rasterio
+import rasterio.errors
+from rasterio.windows import Window
+
+from routesag.errors import DataError
+
+#: Metres per vertical unit accepted for ``z_units``.
+Z_UNIT_FACTORS = {
+    "m": 1.0,
+    "ft": 0.3048,           # international foot (1959)
+    "ftUS": 1200.0 / 3937.0,  # US survey foot
+}
+
+
+class TerrainSampler:
+    """Elevations from a single-band raster by bilinear interpolation.
+
+    Use as a context manager (``with TerrainSampler(path) as terrain:``) or
+    call :meth:`close`.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Single-band raster readable by GDAL (GeoTIFF, VRT, ...) with a CRS.
+    z_units : {"m", "ft", "ftUS"}
+        Unit of the stored elevations when the raster CRS does not say:
+        metre, international foot (0.3048 m) or US survey foot (1200/3937 m).
+        A vertical axis in feet declared by the raster CRS (compound CRS)
+        takes precedence, so a factor is never applied twice; what was
+        applied is in :attr:`z_unit_note`.
+
+    Attributes
+    ----------
+    z_factor : float
+        Metres per stored vertical unit, applied to every sample [m/unit].
+    z_unit_note : str
+        Sentence for the run report saying which vertical factor was applied
+        and why.
+    sample_window_count : int
+        Number of window reads made so far (proves reads are windowed).
+    last_window : rasterio.windows.Window or None
+        The window of the most recent read.
+    max_window_cells : int
+        Largest window read in one go; point sets spread wider are sampled
+        tile by tile so memory stays bounded [cells].
+
+    Raises
+    ------
+    DataError
+        The file cannot be opened, has no CRS or more than one band, or
+        ``z_units`` is unknown.
+
+    Notes
+    -----
+    Samples use bilinear interpolation between the four nearest pixel
+    centres. A sample is NaN when any of those four cells is nodata, masked
+    or NaN, or when the point lies outside the raster. Points inside the
+    raster but within half a pixel of its edge, i.e. beyond the outermost
+    pixel centres, are clamped onto those centres (constant extrapolation of
+    the edge value across the outer half pixel).
+
+    References
+    ----------
+    .. [1] W.H. Press, S.A. Teukolsky, W.T. Vetterling, B.P. Flannery,
+       "Numerical Recipes", 3rd ed., Cambridge University Press, 2007,
+       sec. 3.6 "Interpolation on a grid in multidimensions" (bilinear).
+    .. [2] OGC GeoTIFF Standard 1.1 (19-008r4), sec. 7.4 raster space and
+       PixelIsArea: pixel (row, col) covers [col, col+1) x [row, row+1), its
+       centre is at (col + 0.5, row + 0.5).
+    """
+
+    max_window_cells = 4096 * 4096
+
+    def __init__(self, path, z_units="m"):
+        self._path = Path(path)
+        if z_units not in Z_UNIT_FACTORS:
+            raise DataError(f"terrain {self._path}: z_units {z_units!r} is not one of "
+                            f"{', '.join(Z_UNIT_FACTORS)}")
+        self._ds = _open_single_band(self._path)
+        try:
+            self._crs = pyproj.CRS.from_wkt(self._ds.crs.to_wkt())
+            self._horizontal_crs = _horizontal_part(self._crs)
+            scale, offset = self._ds.scales[0], self._ds.offsets[0]
+            self._scale = 1.0 if scale is None else float(scale)
+            self._offset = 0.0 if offset is None else float(offset)
+            self.z_factor, self.z_unit_note = _resolve_z_factor(
+                z_units, _declared_vertical_unit(self._crs))
+            if (self._scale, self._offset) != (1.0, 0.0):
+                self.z_unit_note += (f"; band scale {self._scale:g} and offset "
+                                     f"{self._offset:g} applied first")
+        except BaseException:
+            self._ds.close()
+            raise
+        self._transformers = {}
+        self._inverse = ~self._ds.transform
+        self.sample_window_count = 0
+        self.last_window = None
+
+    # -- lifecycle -----------------------------------------------------------------
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc_info):
+        self.close()
+
+    def close(self):
+        """Close the raster; safe to call twice."""
+        self._ds.close()
+
+    def __repr__(self):
+        return (f"TerrainSampler({str(self._path)!r}, {self._ds.width}x{self._ds.height} "
+                f"cells, res={self.res}, z_factor={self.z_factor:.10g})")
+
+    # -- properties ----------------------------------------------------------------
+    @property
+    def path(self):
+        """Path of the raster file."""
+        return self._path
+
+    @property
+    def crs(self):
+        """Raster CRS as :class:`pyproj.CRS` (may be compound)."""
+        return self._crs
+
+    @property
+    def bounds(self):
+        """(left, bottom, right, top) in raster CRS units."""
+        return self._ds.bounds
+
+    @property
+    def res(self):
+        """(x, y) pixel size in raster CRS units."""
+        return self._ds.res
+
+    @property
+    def nodata(self):
+        """Nodata value of the band, or None."""
+        return self._ds.nodata
+
+    @property
+    def shape(self):
+        """(rows, cols) of the raster."""
+        return self._ds.height, self._ds.width
+
+    # -- public sampling -------------------------------------------------------------
+    def sample(self, x, y, crs=None):
+        """Bilinear elevation at points.
+
+        Parameters
+        ----------
+        x, y : float or array_like
+            Point coordinates, broadcast against each other [CRS units].
+        crs : anything pyproj.CRS accepts, optional
+            CRS of ``x, y``; default the raster CRS.
+
+        Returns
+        -------
+        numpy.ndarray of float64
+            Elevation in the shape of the broadcast inputs [m]; NaN outside
+            the raster or next to nodata.
+        """
+        xr, yr = self._to_raster_xy(x, y, crs)
+        col_f, row_f = self._pixel_coords(xr, yr)
+        out = np.full(col_f.shape, np.nan)
+        inside = self._inside(col_f, row_f)
+        if inside.any():
+            out[inside] = self._interpolate(col_f[inside], row_f[inside])
+        return out
+
+    def contains(self, x, y, crs=None):
+        """True where a point lies within the raster footprint (edges included).
+
+        Parameters
+        ----------
+        x, y : float or array_like
+            Point coordinates [CRS units].
+        crs : anything pyproj.CRS accepts, optional
+            CRS of ``x, y``; default the raster CRS.
+
+        Returns
+        -------
+        numpy.ndarray of bool
+        """
+        xr, yr = self._to_raster_xy(x, y, crs)
+        return self._inside(*self._pixel_coords(xr, yr))
+
+    def read_window_points(self, x, y, radius_m, crs=None):
+        """Every valid cell centre in the box around points, in one window read.
+
+        Parameters
+        ----------
+        x, y : float or array_like
+            Points whose bounding box is taken [CRS units].
+        radius_m : float
+            Margin added on each side of the bounding box [m]; converted to
+            the raster's horizontal unit.
+        crs : anything pyproj.CRS accepts, optional
+            CRS of ``x, y``; default the raster CRS.
+
+        Returns
+        -------
+        xs, ys : numpy.ndarray of float64
+            Cell centres in the raster CRS [raster CRS units].
+        zs : numpy.ndarray of float64
+            Elevations at those centres [m]. Nodata cells are left out.
+
+        Raises
+        ------
+        DataError
+            The raster CRS is geographic (a margin in metres is undefined).
+        """
+        xr, yr = self._to_raster_xy(x, y, crs)
+        finite = np.isfinite(xr) & np.isfinite(yr)
+        empty = (np.empty(0), np.empty(0), np.empty(0))
+        if not finite.any():
+            return empty
+        margin = radius_m / self._metres_per_horizontal_unit()
+        box = (xr[finite].min() - margin, yr[finite].min() - margin,
+               xr[finite].max() + margin, yr[finite].max() + margin)
+        window = self._window_covering_box(box)
+        if window is None:
+            return empty
+        z = self._read(window)
+        xs, ys = self._cell_centres(window)
+        keep = (np.isfinite(z) & (xs >= box[0]) & (xs <= box[2])
+                & (ys >= box[1]) & (ys <= box[3]))
+        return xs[keep], ys[keep], z[keep]
+
+    # -- coordinates ------------------------------------------------------------------
+    def _to_raster_xy(self, x, y, crs):
+        x, y = np.broadcast_arrays(np.asarray(x, dtype=np.float64),
+                                   np.asarray(y, dtype=np.float64))
+        if crs is None:
+            return x, y
+        source = pyproj.CRS.from_user_input(crs)
+        if source == self._crs or source == self._horizontal_crs:
+            return x, y
+        transformer = self._transformers.get(source)
+        if transformer is None:
+            transformer = pyproj.Transformer.from_crs(
+                _horizontal_part(source), self._horizontal_crs, always_xy=True)
+            self._transformers[source] = transformer
+        xt, yt = transformer.transform(x, y)
+        xt, yt = np.asarray(xt, dtype=np.float64), np.asarray(yt, dtype=np.float64)
+        bad = ~(np.isfinite(xt) & np.isfinite(yt))  # failed projections come back as inf
+        xt[bad] = np.nan
+        yt[bad] = np.nan
+        return xt, yt
+
+    def _pixel_coords(self, x, y):
+        """Continuous (col, row); pixel (r, c) spans [c, c+1) x [r, r+1)."""
+        inv = self._inverse
+        with np.errstate(invalid="ignore", over="ignore"):  # NaN/inf inputs stay non-finite
+            return inv.a * x + inv.b * y + inv.c, inv.d * x + inv.e * y + inv.f
+
+    def _inside(self, col_f, row_f):
+        with np.errstate(invalid="ignore"):
+            return ((col_f >= 0) & (col_f <= self._ds.width)
+                    & (row_f >= 0) & (row_f <= self._ds.height))
+
+    def _metres_per_horizontal_unit(self):
+        if self._horizontal_crs.is_geographic:
+            raise DataError(f"terrain {self._path} has a geographic CRS; a projected CRS "
+                            "in metres or feet is needed for distances")
+        return self._horizontal_crs.axis_info[0].unit_conversion_factor
+
+    # -- interpolation ----------------------------------------------------------------
+    def _interpolate(self, col_f, row_f):
+        """Bilinear values at in-raster pixel coordinates, tile by tile if spread."""
+        height, width = self._ds.height, self._ds.width
+        # Centre-based coordinates, clamped onto the outermost centres.
+        u = np.clip(col_f - 0.5, 0.0, width - 1.0)
+        v = np.clip(row_f - 0.5, 0.0, height - 1.0)
+        c0 = np.clip(np.floor(u).astype(np.int64), 0, max(width - 2, 0))
+        r0 = np.clip(np.floor(v).astype(np.int64), 0, max(height - 2, 0))
+        span_cells = (np.ptp(r0) + 2) * (np.ptp(c0) + 2)
+        if span_cells <= self.max_window_cells:
+            return self._interpolate_in_window(u, v, c0, r0)
+        # Too spread out for one read: group the points by square tile.
+        tile = max(int(math.isqrt(self.max_window_cells)) - 1, 1)
+        tile_key = (r0 // tile) * (width // tile + 1) + (c0 // tile)
+        out = np.empty(u.shape)
+        order = np.argsort(tile_key, kind="stable")
+        _, starts = np.unique(tile_key[order], return_index=True)
+        for group in np.split(order, starts[1:]):
+            out[group] = self._interpolate_in_window(u[group], v[group], c0[group], r0[group])
+        return out
+
+    def _interpolate_in_window(self, u, v, c0, r0):
+        row_off, col_off = int(r0.min()), int(c0.min())
+        n_rows = min(int(r0.max()) + 2, self._ds.height) - row_off
+        n_cols = min(int(c0.max()) + 2, self._ds.width) - col_off
+        z = self._read(Window(col_off, row_off, n_cols, n_rows))
+        r, c = r0 - row_off, c0 - col_off
+        r1, c1 = np.minimum(r + 1, n_rows - 1), np.minimum(c + 1, n_cols - 1)
+        fu, fv = u - c0, v - r0
+        # NaN in any corner propagates, even at zero weight: that is intended.
+        return ((z[r, c] * (1.0 - fu) + z[r, c1] * fu) * (1.0 - fv)
+                + (z[r1, c] * (1.0 - fu) + z[r1, c1] * fu) * fv)
+
+    # -- raw reads --------------------------------------------------------------------
+    def _read(self, window):
+        """Window read as float64 metres, NaN where masked."""
+        data = self._ds.read(1, window=window, masked=True)
+        self.sample_window_count += 1
+        self.last_window = window
+        z = np.ma.filled(data.astype(np.float64), np.nan)
+        return (z * self._scale + self._offset) * self.z_factor
+
+    def _window_covering_box(self, box):
+        """Smallest in-raster window holding every cell centre inside ``box``."""
+        left, bottom, right, top = box
+        cols, rows = self._pixel_coords(np.array([left, left, right, right]),
+                                        np.array([bottom, top, bottom, top]))
+        col_lo = max(int(np.floor(cols.min())), 0)
+        row_lo = max(int(np.floor(rows.min())), 0)
+        col_hi = min(int(np.ceil(cols.max())), self._ds.width)
+        row_hi = min(int(np.ceil(rows.max())), self._ds.height)
+        if col_hi <= col_lo or row_hi <= row_lo:
+            return None
+        return Window(col_lo, row_lo, col_hi - col_lo, row_hi - row_lo)
+
+    def _cell_centres(self, window):
+        cols = np.arange(window.col_off, window.col_off + window.width) + 0.5
+        rows = np.arange(window.row_off, window.row_off + window.height) + 0.5
+        cols, rows = np.meshgrid(cols, rows)
+        t = self._ds.transform
+        return t.a * cols + t.b * rows + t.c, t.d * cols + t.e * rows + t.f
+
+
+def _open_single_band(path):
+    """Open the raster and check it has a CRS and one band; DataError if not."""
+    try:
+        ds = rasterio.open(path)
+    except (rasterio.errors.RasterioIOError, OSError) as exc:
+        raise DataError(f"terrain {path} cannot be opened as a raster: {exc}") from exc
+    problem = None
+    if ds.crs is None or not ds.crs.to_wkt():
+        problem = f"terrain {path} has no CRS"
+    elif ds.count != 1:
+        problem = f"terrain {path} has {ds.count} bands; exactly one elevation band is expected"
+    if problem:
+        ds.close()
+        raise DataError(problem)
+    return ds
+
+
+def _horizontal_part(crs):
+    """The horizontal CRS of a compound CRS, else the CRS itself."""
+    if crs.is_compound:
+        for sub in crs.sub_crs_list:
+            if not sub.is_vertical:
+                return sub
+    return crs
+
+
+def _declared_vertical_unit(crs):
+    """(unit name, metres per unit) of the CRS's up axis, or None."""
+    for axis in crs.axis_info:
+        if axis.direction.lower() == "up":
+            return axis.unit_name, axis.unit_conversion_factor
+    return None
+
+
+def _resolve_z_factor(z_units, declared):
+    """Vertical factor [m/unit] and a note: a foot unit in the CRS wins over z_units."""
+    configured = Z_UNIT_FACTORS[z_units]
+    if declared is not None and "foot" in declared[0].lower():
+        name, factor = declared
+        note = f"raster CRS declares vertical unit {name!r}: elevations x{factor:.10g} to metres"
+        if z_units != "m" and not math.isclose(factor, configured, rel_tol=1e-9):
+            note += f" (z_units={z_units!r} ignored in favour of the CRS)"
+        return factor, note
+    note = f"z_units={z_units!r}: elevations x{configured:.10g} to metres"
+    if declared is not None and z_units != "m":
+        note += f" (raster CRS declares {declared[0]!r}; configured z_units kept)"
+    return configured, note

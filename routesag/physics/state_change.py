@@ -1,0 +1,240 @@
+"""Ruling span and change of state (new tension after a change of load or temperature).
+
+A tension section of free-swinging suspension spans behaves like one level
+span, the ruling span. Between two states (load ``w``, temperature ``t``) the
+conductor keeps its unstressed length; with a linear-elastic conductor of
+axial stiffness ``EA`` and expansion coefficient ``alpha``::
+
+    L(H) / ((1 + T_mean(H) / EA) (1 + alpha (t - t_ref)))  is the same in both states.
+
+:func:`change_of_state` solves this exactly (catenary arc length, mean
+tension); :func:`parabolic_change_of_state` solves the classic cubic that
+follows from the parabolic arc length with ``T = H``.
+
+References
+----------
+.. [1] Douglass, D.A. and Thrash, R., "Sag and tension of conductor", ch. 14
+   in L.L. Grigsby (ed.), Electric Power Generation, Transmission and
+   Distribution, 3rd ed., CRC Press, 2012 (ruling span, change of state
+   cubic, Table 14.5 Drake example).
+.. [2] IEC 60050-466, International Electrotechnical Vocabulary, Overhead
+   lines: "equivalent span".
+.. [3] Irvine, H.M., Cable Structures, MIT Press, 1981 (elastic catenary).
+"""
+
+import numpy as np
+from scipy.optimize import brentq
+
+from routesag.errors import SolveError
+
+from .catenary import arc_length, mean_tension
+
+__all__ = ["ruling_span", "change_of_state", "parabolic_change_of_state"]
+
+#: Largest half-span angle S/2c tried by the exact solver; cosh overflows near 710.
+_MAX_HALF_SPAN_ANGLE = 300.0
+#: Largest horizontal tension tried, as a multiple of EA (a strain of 100 is absurd).
+_MAX_TENSION_PER_EA = 100.0
+
+
+def ruling_span(spans_m):
+    """Ruling (equivalent) span of a tension section, ``sqrt(sum S^3 / sum S)``.
+
+    Parameters
+    ----------
+    spans_m : array-like
+        Horizontal spans of the section [m].
+
+    Returns
+    -------
+    float
+        Ruling span [m].
+
+    References
+    ----------
+    .. [1] IEC 60050-466, "equivalent span".
+    .. [2] Grigsby (ed.), ch. 14, "Ruling span".
+    """
+    spans = np.asarray(spans_m, dtype=float)
+    return float(np.sqrt(np.sum(spans**3) / np.sum(spans)))
+
+
+def _elastic_length_ratio(span_m, horizontal_tension_n, weight_n_m, axial_stiffness_n):
+    """Unstressed length at the reference temperature, ``L / (1 + T_mean / EA)`` [m]."""
+    catenary_m = horizontal_tension_n / weight_n_m
+    stretched = arc_length(span_m, 0.0, catenary_m)
+    tension = mean_tension(span_m, 0.0, horizontal_tension_n, weight_n_m)
+    return stretched / (1.0 + tension / axial_stiffness_n)
+
+
+def _describe(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c):
+    return (f"span {span_m:g} m, from state 1 (H = {tension1_n:g} N, w = {weight1_n_m:g} N/m, "
+            f"t = {temperature1_c:g} C) to state 2 (w = {weight2_n_m:g} N/m, t = {temperature2_c:g} C)")
+
+
+def _check_positive(what, **values):
+    for name, value in values.items():
+        if not (np.isfinite(value) and value > 0):
+            raise SolveError(f"change of state impossible: {name} must be a positive number, got {value!r} ({what})")
+
+
+def change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
+                    modulus_pa, area_m2, expansion_per_c):
+    """Horizontal tension in state 2 of a level span, exact catenary (scalar).
+
+    Solves, with ``brentq``, for ``H2`` such that the unstressed length
+    ``L / ((1 + T_mean / EA)(1 + alpha (t - t1)))`` of state 2 equals that of
+    state 1, with the exact catenary arc length ``L`` and the arc-length mean
+    tension ``T_mean`` of each state.
+
+    Parameters
+    ----------
+    span_m : float
+        Level (ruling) span [m].
+    tension1_n : float
+        Horizontal tension in state 1 [N].
+    weight1_n_m : float
+        Load per unit length in state 1 (resultant) [N/m].
+    temperature1_c : float
+        Conductor temperature in state 1 [C].
+    weight2_n_m : float
+        Load per unit length in state 2 [N/m].
+    temperature2_c : float
+        Conductor temperature in state 2 [C].
+    modulus_pa : float
+        Elastic modulus of the conductor [Pa].
+    area_m2 : float
+        Total cross-section area [m^2].
+    expansion_per_c : float
+        Linear thermal expansion coefficient [1/C].
+
+    Returns
+    -------
+    float
+        Horizontal tension in state 2 [N].
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        If an input is not positive or no tension between a sag of
+        ``S/2c = 300`` and ``100 EA`` satisfies the state equation.
+
+    References
+    ----------
+    .. [1] Grigsby (ed.), ch. 14, "Sag-tension calculation" (unstressed length
+       kept between states).
+    .. [2] Irvine, Cable Structures, 1981 (elastic catenary).
+    """
+    span_m, tension1_n, weight1_n_m, weight2_n_m = map(float, (span_m, tension1_n, weight1_n_m, weight2_n_m))
+    describe = _describe(span_m, tension1_n, weight1_n_m, float(temperature1_c), weight2_n_m, float(temperature2_c))
+    axial_stiffness_n = float(modulus_pa) * float(area_m2)
+    _check_positive(describe, span_m=span_m, tension1_n=tension1_n, weight1_n_m=weight1_n_m,
+                    weight2_n_m=weight2_n_m, axial_stiffness_n=axial_stiffness_n)
+    thermal = 1.0 + float(expansion_per_c) * (float(temperature2_c) - float(temperature1_c))
+    if thermal <= 0:
+        raise SolveError(f"change of state impossible: thermal strain shrinks the wire to nothing ({describe})")
+    target_m = _elastic_length_ratio(span_m, tension1_n, weight1_n_m, axial_stiffness_n) * thermal
+
+    def residual(tension_n):
+        return _elastic_length_ratio(span_m, tension_n, weight2_n_m, axial_stiffness_n) - target_m
+
+    low_limit = weight2_n_m * span_m / (2.0 * _MAX_HALF_SPAN_ANGLE)
+    high_limit = _MAX_TENSION_PER_EA * axial_stiffness_n
+    guess = parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
+                                      temperature2_c, modulus_pa, area_m2, expansion_per_c)
+    low, high = _bracket(residual, float(guess), low_limit, high_limit)
+    if low is None:
+        raise SolveError(f"change of state has no solution with a horizontal tension between "
+                         f"{low_limit:.4g} N and {high_limit:.4g} N ({describe})")
+    return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
+
+
+def _bracket(residual, guess, low_limit, high_limit):
+    """Widen ``[guess/2, 2 guess]`` by factors of 4 inside the limits until the decreasing
+    ``residual`` changes sign; return ``(low, high)`` or ``(None, None)``."""
+    low = min(max(guess / 2.0, low_limit), high_limit)
+    high = max(min(guess * 2.0, high_limit), low_limit)
+    while residual(low) < 0 and low > low_limit:
+        low, high = max(low / 4.0, low_limit), low
+    while residual(high) > 0 and high < high_limit:
+        low, high = high, min(high * 4.0, high_limit)
+    if residual(low) >= 0 >= residual(high):
+        return low, high
+    return None, None
+
+
+def parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
+                              modulus_pa, area_m2, expansion_per_c):
+    """Horizontal tension in state 2 from the classic parabolic state-change cubic.
+
+    ``H2^2 [H2 - H1 + EA w1^2 S^2 / (24 H1^2) + EA alpha (t2 - t1)] = EA w2^2 S^2 / 24``.
+    The cubic ``H^3 + b H^2 - k`` (``k > 0``) has exactly one positive root; it
+    is found by Newton's method started above it, where the cubic is convex,
+    so the iterates fall monotonically onto the root. Broadcasts over arrays.
+
+    Parameters
+    ----------
+    span_m : float or array
+        Level (ruling) span [m].
+    tension1_n : float or array
+        Horizontal tension in state 1 [N].
+    weight1_n_m : float or array
+        Load per unit length in state 1 [N/m].
+    temperature1_c : float or array
+        Conductor temperature in state 1 [C].
+    weight2_n_m : float or array
+        Load per unit length in state 2 [N/m].
+    temperature2_c : float or array
+        Conductor temperature in state 2 [C].
+    modulus_pa : float or array
+        Elastic modulus [Pa].
+    area_m2 : float or array
+        Cross-section area [m^2].
+    expansion_per_c : float or array
+        Linear thermal expansion coefficient [1/C].
+
+    Returns
+    -------
+    float or array
+        Horizontal tension in state 2 [N].
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        If a span, tension, weight or EA is not positive.
+
+    References
+    ----------
+    .. [1] Grigsby (ed.), ch. 14, change-of-state equation (parabolic form).
+    """
+    span = np.asarray(span_m, dtype=float)
+    h1 = np.asarray(tension1_n, dtype=float)
+    w1 = np.asarray(weight1_n_m, dtype=float)
+    w2 = np.asarray(weight2_n_m, dtype=float)
+    ea = np.asarray(modulus_pa, dtype=float) * np.asarray(area_m2, dtype=float)
+    for name, value in (("span_m", span), ("tension1_n", h1), ("weight1_n_m", w1), ("weight2_n_m", w2),
+                        ("modulus_pa * area_m2", ea)):
+        if not np.all(np.isfinite(value) & (value > 0)):
+            raise SolveError(f"parabolic change of state impossible: {name} must be positive, got {value!r}")
+    delta_t = np.asarray(temperature2_c, dtype=float) - np.asarray(temperature1_c, dtype=float)
+    b = -h1 + ea * w1**2 * span**2 / (24.0 * h1**2) + ea * np.asarray(expansion_per_c, dtype=float) * delta_t
+    k = ea * w2**2 * span**2 / 24.0
+    return _positive_cubic_root(b, k)
+
+
+def _positive_cubic_root(b, k):
+    """Positive root of ``H^3 + b H^2 - k`` for ``k > 0``.
+
+    It lies below ``max(-b, 0) + k^(1/3)``; the cubic is convex and increasing
+    from there down to the root, so Newton's method converges monotonically.
+    """
+    b, k = np.broadcast_arrays(b, k)
+    root = np.maximum(-b, 0.0) + np.cbrt(k)
+    for _ in range(200):
+        value = root**3 + b * root**2 - k
+        slope = 3.0 * root**2 + 2.0 * b * root
+        step = value / slope
+        root = root - step
+        if np.all(np.abs(step) <= 1e-14 * np.abs(root)):
+            break
+    return root[()] if root.ndim == 0 else root

@@ -1,0 +1,53 @@
+"""Plain-text run summary for the terminal."""
+from __future__ import annotations
+
+import math
+
+from routesag.stages.output import CAUTION
+
+
+def _fmt(value, digits=2) -> str:
+    return "unknown" if value is None or (isinstance(value, float) and math.isnan(value)) else f"{value:.{digits}f}"
+
+
+def summary_text(result, per_span: bool = False) -> str:
+    """Short report: counts, worst clearance per load case, violations, unknowns, caution."""
+    layers = result.layers
+    conductors, violations = layers["conductors"], layers["clearance_violations"]
+    lines = [f"routesag: {len(layers['spans'])} spans in {len(layers['sections'])} tension sections, "
+             f"{conductors['load_case'].nunique()} load cases"]
+    if result.path:
+        lines.append(f"written: {result.path}")
+    lines.append("worst clearance per load case:")
+    for case, group in conductors.groupby("load_case", sort=False):
+        row = group.loc[group["min_clearance_m"].idxmin()] if group["min_clearance_m"].notna().any() else None
+        where = (f"span {row['span_id']} at {row['min_clearance_station_m']:.0f} m "
+                 f"(required {row['required_m']:.2f} m)") if row is not None else "no terrain"
+        worst = _fmt(row["min_clearance_m"]) if row is not None else "unknown"
+        lines.append(f"  {case:<12} {worst:>8} m  {where}")
+    if per_span:
+        lines.extend(_span_table(conductors))
+    lines.append(f"violations: {len(violations)}")
+    for _, v in violations.sort_values("deficit_m", ascending=False).iterrows():
+        lines.append(f"  span {v['span_id']} [{v['load_case']}] at {v['station_m']:.0f} m "
+                     f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {v['clearance_m']:.2f} m < "
+                     f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
+                     f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    unknown = conductors["unknown_m"].sum()
+    if unknown > 0:
+        lines.append(f"UNKNOWN: {unknown:.0f} m of conductor over missing terrain (not checked, not clear)")
+    for message in result.warnings:
+        lines.append(f"warning: {message}")
+    lines.append(f"CAUTION: {CAUTION}")
+    return "\n".join(lines)
+
+
+def _span_table(conductors) -> list[str]:
+    cases = list(dict.fromkeys(conductors["load_case"]))
+    table = conductors.pivot_table(index="span_id", columns="load_case", values="min_clearance_m",
+                                   aggfunc="min", sort=False)
+    header = f"  {'span':<16}" + "".join(f"{c:>10}" for c in cases)
+    rows = ["minimum clearance [m] per span and load case:", header]
+    for span_id, row in table.iterrows():
+        rows.append(f"  {span_id:<16}" + "".join(f"{_fmt(row.get(c)):>10}" for c in cases))
+    return rows

@@ -1,0 +1,1 @@
+"""Built-in pipeline stages. Each module holds one stage; see routesag.pipeline."""

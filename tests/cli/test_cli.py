@@ -1,0 +1,112 @@
+"""The command line: exit codes, summary, stage listing with a plugin."""
+import importlib
+import textwrap
+
+import pytest
+from click.testing import CliRunner
+
+from routesag.cli import main
+
+
+@pytest.fixture
+def runner():
+    return CliRunner()
+
+
+@pytest.fixture
+def plugin(tmp_path, monkeypatch):
+    """Register a third-party stage through a real entry point (a dist-info folder on sys.path)."""
+    root = tmp_path / "plugin"
+    root.mkdir()
+    (root / "demo_plugin_stage.py").write_text(textwrap.dedent("""
+        from routesag.pipeline import Stage
+
+        class CountViolations(Stage):
+            name = "count_violations"
+            requires = ("violations",)
+            provides = ("violation_count",)
+            description = "counts violations (test plugin)"
+
+            def run(self, data, ctx):
+                ctx.notes["violation_count"] = len(data["violations"])
+                return {"violation_count": len(data["violations"])}
+        """))
+    dist = root / "demo_plugin_stage-1.0.dist-info"
+    dist.mkdir()
+    (dist / "METADATA").write_text("Metadata-Version: 2.1\nName: demo-plugin-stage\nVersion: 1.0\n")
+    (dist / "entry_points.txt").write_text(
+        "[routesag.stages]\ncount_violations = demo_plugin_stage:CountViolations\n"
+        "broken_one = demo_plugin_missing:Nothing\n")
+    monkeypatch.syspath_prepend(str(root))
+    importlib.invalidate_caches()
+    return root
+
+
+def test_run_prints_summary_and_exits_0(runner, survey):
+    result = runner.invoke(main, ["run", str(survey)])
+    assert result.exit_code == 0, result.output
+    assert "3 spans in 2 tension sections" in result.output
+    assert "worst clearance per load case" in result.output and "hot" in result.output
+    assert "CAUTION" in result.output
+    assert (survey.parent / "out.gpkg").is_file()
+
+
+def test_fail_on_violation_exits_3(runner, survey, tmp_path):
+    out = tmp_path / "strict.gpkg"
+    survey.write_text(survey.read_text().replace("ground_m = 7.5", "ground_m = 30.0"))
+    result = runner.invoke(main, ["run", str(survey), "--out", str(out), "--fail-on-violation"])
+    assert result.exit_code == 3, result.output
+    assert "violations:" in result.output and out.is_file()
+
+
+def test_bad_input_exits_2_without_traceback(runner, survey):
+    survey.write_text(survey.read_text().replace("station_m", "statio_m"))
+    result = runner.invoke(main, ["run", str(survey)])
+    assert result.exit_code == 2
+    assert "did you mean 'station_m'" in result.output
+    assert "Traceback" not in result.output
+    assert not (survey.parent / "out.gpkg").exists()
+
+
+def test_missing_project_exits_2(runner, tmp_path):
+    result = runner.invoke(main, ["run", str(tmp_path / "none.toml")])
+    assert result.exit_code == 2 and "not found" in result.output
+
+
+def test_output_over_input_refused(runner, survey):
+    result = runner.invoke(main, ["run", str(survey), "--out", str(survey.parent / "structures.gpkg")])
+    assert result.exit_code == 2 and "is one of the input files" in result.output
+
+
+def test_stages_lists_builtin_and_plugin(runner, plugin):
+    result = runner.invoke(main, ["stages"])
+    assert result.exit_code == 0, result.output
+    assert "read_inputs  [built-in]" in result.output
+    assert "count_violations  [plugin]" in result.output
+    assert "requires: violations" in result.output
+    assert "broken_one  [plugin]" in result.output and "failed to load" in result.output
+
+
+def test_project_can_add_plugin_stage(runner, plugin, survey):
+    survey.write_text(survey.read_text() + '\n[pipeline]\nstages = ["count_violations"]\n')
+    import routesag
+
+    result = routesag.run(survey)
+    assert result.notes["violation_count"] == len(result["clearance_violations"])
+
+
+def test_broken_plugin_reports_only_when_used(runner, plugin, survey):
+    survey.write_text(survey.read_text() + '\n[pipeline]\nstages = ["broken_one"]\n')
+    result = runner.invoke(main, ["run", str(survey)])
+    assert result.exit_code == 2
+    assert "broken_one" in result.output and "cannot be used" in result.output
+
+
+def test_quiet_prints_nothing(runner, survey):
+    result = runner.invoke(main, ["-q", "run", str(survey)])
+    assert result.exit_code == 0 and result.output == ""
+
+
+def test_version(runner):
+    result = runner.invoke(main, ["--version"])
+    assert result.exit_code == 0 and "routesag" in result.output
