@@ -11,6 +11,7 @@ from pathlib import Path
 import numpy as np
 import pyproj
 import rasterio
+from rasterio.enums import MaskFlags
 import rasterio.errors
 from rasterio.windows import Window
 
@@ -82,13 +83,27 @@ class TerrainSampler:
     """
 
     max_window_cells = 4096 * 4096
+    # Points are "sparse" when their box holds far more cells than they need:
+    # then each small tile of points gets its own read.
+    sparse_min_cells = 512 * 512
+    sparse_cells_per_point = 256
+    sparse_tile = 64
+    cache_mb = 64
 
     def __init__(self, path, z_units="m"):
         self._path = Path(path)
         if z_units not in Z_UNIT_FACTORS:
             raise DataError(f"terrain {self._path}: z_units {z_units!r} is not one of "
                             f"{', '.join(Z_UNIT_FACTORS)}")
-        self._ds = _open_single_band(self._path)
+        # A bounded block cache for the sampler's life: GDAL's default (5 % of RAM)
+        # would keep every block a long line touches, so memory would grow with the raster.
+        self._env = rasterio.Env(GDAL_CACHEMAX=self.cache_mb)
+        self._env.__enter__()
+        try:
+            self._ds = _open_single_band(self._path)
+        except BaseException:
+            self._env.__exit__(None, None, None)
+            raise
         try:
             self._crs = pyproj.CRS.from_wkt(self._ds.crs.to_wkt())
             self._horizontal_crs = _horizontal_part(self._crs)
@@ -101,9 +116,11 @@ class TerrainSampler:
                 self.z_unit_note += (f"; band scale {self._scale:g} and offset "
                                      f"{self._offset:g} applied first")
         except BaseException:
-            self._ds.close()
+            self.close()
             raise
         self._transformers = {}
+        flags = set(self._ds.mask_flag_enums[0])
+        self._mask_from_nodata = flags <= {MaskFlags.nodata, MaskFlags.all_valid}
         self._inverse = ~self._ds.transform
         self.sample_window_count = 0
         self.last_window = None
@@ -118,6 +135,9 @@ class TerrainSampler:
     def close(self):
         """Close the raster; safe to call twice."""
         self._ds.close()
+        if self._env is not None:
+            self._env.__exit__(None, None, None)
+            self._env = None
 
     def __repr__(self):
         return (f"TerrainSampler({str(self._path)!r}, {self._ds.width}x{self._ds.height} "
@@ -286,10 +306,12 @@ class TerrainSampler:
         c0 = np.clip(np.floor(u).astype(np.int64), 0, max(width - 2, 0))
         r0 = np.clip(np.floor(v).astype(np.int64), 0, max(height - 2, 0))
         span_cells = (np.ptp(r0) + 2) * (np.ptp(c0) + 2)
-        if span_cells <= self.max_window_cells:
+        sparse = span_cells > self.sparse_min_cells and span_cells > self.sparse_cells_per_point * u.size
+        if span_cells <= self.max_window_cells and not sparse:
             return self._interpolate_in_window(u, v, c0, r0)
-        # Too spread out for one read: group the points by square tile.
-        tile = max(int(math.isqrt(self.max_window_cells)) - 1, 1)
+        # Too spread out for one read (or a few far-apart points, such as the
+        # structures of a long line): group the points by square tile.
+        tile = self.sparse_tile if sparse else max(int(math.isqrt(self.max_window_cells)) - 1, 1)
         tile_key = (r0 // tile) * (width // tile + 1) + (c0 // tile)
         out = np.empty(u.shape)
         order = np.argsort(tile_key, kind="stable")
@@ -313,10 +335,17 @@ class TerrainSampler:
     # -- raw reads --------------------------------------------------------------------
     def _read(self, window):
         """Window read as float64 metres, NaN where masked."""
-        data = self._ds.read(1, window=window, masked=True)
+        if self._mask_from_nodata:
+            # Comparing with nodata here is ~100x faster than GDAL's masked read.
+            z = self._ds.read(1, window=window).astype(np.float64)
+            nodata = self._ds.nodata
+            if nodata is not None and not np.isnan(nodata):
+                z[z == nodata] = np.nan
+        else:
+            data = self._ds.read(1, window=window, masked=True)
+            z = np.ma.filled(data.astype(np.float64), np.nan)
         self.sample_window_count += 1
         self.last_window = window
-        z = np.ma.filled(data.astype(np.float64), np.nan)
         return (z * self._scale + self._offset) * self.z_factor
 
     def _window_covering_box(self, box):

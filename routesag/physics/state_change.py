@@ -79,13 +79,13 @@ def _check_positive(what, **values):
 
 
 def change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
-                    modulus_pa, area_m2, expansion_per_c):
+                    modulus_pa, area_m2, expansion_per_c, reference_temperature_c=None):
     """Horizontal tension in state 2 of a level span, exact catenary (scalar).
 
     Solves, with ``brentq``, for ``H2`` such that the unstressed length
-    ``L / ((1 + T_mean / EA)(1 + alpha (t - t1)))`` of state 2 equals that of
-    state 1, with the exact catenary arc length ``L`` and the arc-length mean
-    tension ``T_mean`` of each state.
+    ``L / ((1 + T_mean / EA)(1 + alpha (t - t_ref)))`` of state 2 equals that
+    of state 1, with the exact catenary arc length ``L`` and the arc-length
+    mean tension ``T_mean`` of each state.
 
     Parameters
     ----------
@@ -107,6 +107,13 @@ def change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m
         Total cross-section area [m^2].
     expansion_per_c : float
         Linear thermal expansion coefficient [1/C].
+    reference_temperature_c : float, optional
+        Temperature ``t_ref`` at which the linear expansion law is anchored
+        [C]; default ``temperature1_c``. The linear law is not symmetric
+        (``(1 + a dt)(1 - a dt) != 1``), so chains of state changes that
+        start from different states agree exactly only with one fixed
+        reference (e.g. the 20 C of the conductor data sheet); the
+        difference is second order in ``alpha dt``.
 
     Returns
     -------
@@ -130,8 +137,13 @@ def change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m
     axial_stiffness_n = float(modulus_pa) * float(area_m2)
     _check_positive(describe, span_m=span_m, tension1_n=tension1_n, weight1_n_m=weight1_n_m,
                     weight2_n_m=weight2_n_m, axial_stiffness_n=axial_stiffness_n)
-    thermal = 1.0 + float(expansion_per_c) * (float(temperature2_c) - float(temperature1_c))
-    if thermal <= 0:
+    if reference_temperature_c is None:
+        reference_temperature_c = temperature1_c
+    alpha = float(expansion_per_c)
+    growth1 = 1.0 + alpha * (float(temperature1_c) - float(reference_temperature_c))
+    growth2 = 1.0 + alpha * (float(temperature2_c) - float(reference_temperature_c))
+    thermal = growth2 / growth1
+    if not (growth1 > 0 and growth2 > 0):
         raise SolveError(f"change of state impossible: thermal strain shrinks the wire to nothing ({describe})")
     target_m = _elastic_length_ratio(span_m, tension1_n, weight1_n_m, axial_stiffness_n) * thermal
 

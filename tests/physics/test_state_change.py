@@ -155,3 +155,10 @@ def test_very_hot_slack_wire_still_solves():
     mean = cat.mean_tension(50.0, 0.0, h2, 5.0)
     start = cat.arc_length(50.0, 0.0, 4000.0) / (1 + cat.mean_tension(50.0, 0.0, 20000.0, 5.0) / 28e6)
     assert_allclose(length / (1 + mean / 28e6), start * (1 + 23e-6 * 235.0), rtol=1e-12)
+
+
+def test_reference_temperature_defaults_to_state_one():
+    args = (300.0, 25000.0, 15.0, 10.0, 20.0, 60.0, 70e9, 400e-6, 19e-6)
+    assert sc.change_of_state(*args) == sc.change_of_state(*args, reference_temperature_c=10.0)
+    # Another anchor changes the answer only at second order in alpha * dt (here ~1e-6 relative).
+    assert_allclose(sc.change_of_state(*args, reference_temperature_c=20.0), sc.change_of_state(*args), rtol=1e-4)
