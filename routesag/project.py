@@ -94,7 +94,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "insulators": {
         "weight_n": Key(NUMBER, 0.0, non_negative, "weight of one suspension string [N]"),
-        "wind_n": Key(NUMBER, 0.0, non_negative, "wind load on one suspension string [N]"),
+        "wind_area_m2": Key(NUMBER, 0.0, non_negative,
+                            "area of one suspension string facing the wind; its wind load is the load "
+                            "case's wind_pa times this area [m2]"),
     },
     "clearance": {
         "ground_m": Key(NUMBER, check=positive, doc="required vertical clearance to terrain [m]"),
@@ -200,7 +202,7 @@ class Project:
     settings: dict = field(default_factory=dict)
     wires: list[Wire] = field(default_factory=list)
     insulator_weight_n: float = 0.0
-    insulator_wind_n: float = 0.0
+    insulator_wind_area_m2: float = 0.0
 
     @property
     def base_dir(self) -> Path:
@@ -420,7 +422,7 @@ def _build_project(path: Path, s: dict, output) -> Project:
         ice_density_kg_m3=s["loads"]["ice_density_kg_m3"], output_path=out.resolve(),
         pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
         wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],
-        insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_n=s["insulators"]["wind_n"])
+        insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"])
 
 
 def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, stringing: Stringing) -> Wire:

@@ -101,18 +101,19 @@ def test_swung_clamp_is_what_the_clearance_sees(level_line):
 
 
 def test_string_weight_and_wind_enter_the_swing(level_line):
-    level_line.write_text(level_line.read_text() + "\n[insulators]\nweight_n = 600.0\nwind_n = 200.0\n")
+    level_line.write_text(level_line.read_text() + "\n[insulators]\nweight_n = 600.0\nwind_area_m2 = 0.5\n")
     result = routesag.run(level_line)
     p2 = by(result["structure_loads"], structure_id="P2", load_case="wind6")
     tensions = result["conductors"]
     w_n_m = 1.628 * G  # Drake mass, FIELD.md §5
     f_n_m = SIX_PSF_PA * 0.02814
-    # psi = atan((F*wind span + P/2) / (w*weight span + W/2)), FIELD.md §8 (from memory).
-    expected = math.atan((f_n_m * 300 + 100.0) / (w_n_m * p2["weight_span_m"] + 300.0))
+    # psi = atan((F*wind span + P/2) / (w*weight span + W/2)), FIELD.md §8 (from memory); P = 0.5 m2 x 6 psf.
+    expected = math.atan((f_n_m * 300 + 0.5 * SIX_PSF_PA / 2) / (w_n_m * p2["weight_span_m"] + 300.0))
     assert math.radians(p2["swing_deg"]) == pytest.approx(expected, rel=1e-9)
     assert len(tensions) == 2 * 2
     still = by(result["structure_loads"], structure_id="P2", load_case="still")
     assert still["vertical_n"] == pytest.approx(w_n_m * 300 + 600.0, rel=2e-3)  # string weight included
+    assert still["swing_deg"] == 0.0  # no wind in this case: the string's wind area carries no load
 
 
 @pytest.fixture

@@ -34,7 +34,7 @@ class ComputeStructureLoads(Stage):
         ctx.notes["structure_loads"] = ("one pass: spans, loads and string swing from the rest geometry "
                                         "(strings plumb); the wires are then drawn from the swung clamps")
         loads = structure_loads(data["attachments"], data["wire_spans"], data["tensions"],
-                                project.insulator_weight_n, project.insulator_wind_n)
+                                project.insulator_weight_n, project.insulator_wind_area_m2)
         return {"structure_loads": loads}
 
 
@@ -65,7 +65,8 @@ def _side(ends: pd.DataFrame, side: str) -> pd.DataFrame:
     return renamed[KEYS + values].rename(columns={v: f"{side}_{v}" for v in values})
 
 
-def structure_loads(attachments, wire_spans, tensions, string_weight_n=0.0, string_wind_n=0.0) -> pd.DataFrame:
+def structure_loads(attachments, wire_spans, tensions, string_weight_n=0.0,
+                    string_wind_area_m2=0.0) -> pd.DataFrame:
     """Loads of each wire on each structure in each load case, with uplift and the swung clamp.
 
     Parameters
@@ -77,8 +78,11 @@ def structure_loads(attachments, wire_spans, tensions, string_weight_n=0.0, stri
         Spans per wire between rest attachments.
     tensions : DataFrame
         Solved tensions and loads per section, wire and load case.
-    string_weight_n, string_wind_n : float
-        Weight of, and wind load on, one suspension string [N].
+    string_weight_n : float
+        Weight of one suspension string [N].
+    string_wind_area_m2 : float
+        Area of one string facing the wind [m2]; its wind load is the load
+        case's wind pressure times this area (drag coefficient 1).
 
     Returns
     -------
@@ -91,7 +95,7 @@ def structure_loads(attachments, wire_spans, tensions, string_weight_n=0.0, stri
         structure), swing_deg (string swing, positive to the right) and
         x, y, z (the wire clamp, swung) [m].
     """
-    case_loads = tensions[["wire", "load_case", "vertical_n_m", "wind_n_m", "side"]].drop_duplicates(
+    case_loads = tensions[["wire", "load_case", "vertical_n_m", "wind_n_m", "wind_pa", "side"]].drop_duplicates(
         ["wire", "load_case"])
     frame = attachments.merge(case_loads, on="wire")
     ends = span_ends(wire_spans, tensions)
@@ -99,10 +103,10 @@ def structure_loads(attachments, wire_spans, tensions, string_weight_n=0.0, stri
         frame = frame.merge(_side(ends, side), on=KEYS, how="left")
     side_columns = [c for c in frame.columns if c.startswith(SIDES)]
     frame[side_columns] = frame[side_columns].fillna(0.0)
-    return _loads(frame, string_weight_n, string_wind_n)
+    return _loads(frame, string_weight_n, string_wind_area_m2)
 
 
-def _loads(f: pd.DataFrame, string_weight_n: float, string_wind_n: float) -> pd.DataFrame:
+def _loads(f: pd.DataFrame, string_weight_n: float, string_wind_area_m2: float) -> pd.DataFrame:
     has_string = f["insulator_m"].to_numpy() > 0
     weight_span = weight_span_m(f["back_span_m"], f["back_low_point_m"], f["ahead_low_point_m"])
     wind_span = wind_span_m(f["back_span_m"], f["ahead_span_m"])
@@ -113,8 +117,9 @@ def _loads(f: pd.DataFrame, string_weight_n: float, string_wind_n: float) -> pd.
         axes["along"], axes["across"])
     side = f["side"].to_numpy(dtype=float)
     transverse = angle_load + side * f["wind_n_m"].to_numpy() * wind_span
+    string_wind_n = side * f["wind_pa"].to_numpy() * string_wind_area_m2
     swing = np.where(has_string, insulator_swing_rad(transverse, f["vertical_n_m"].to_numpy() * weight_span,
-                                                     side * string_wind_n, string_weight_n), 0.0)
+                                                     string_wind_n, string_weight_n), 0.0)
     sideways, up = swing_displacement_m(f["insulator_m"].to_numpy(), swing)
     vertical = (f["back_vertical_n"] + f["ahead_vertical_n"]).to_numpy() + np.where(has_string,
                                                                                    string_weight_n, 0.0)
