@@ -284,3 +284,25 @@ def test_wire_conductor_problems_name_the_wire(survey):
     problems = "\n".join(info.value.problems)
     assert "[[wires]] #1 ('E') conductor: missing key 'area_mm2'" in problems
     assert "[[wires]] #1 ('E') stringing: give exactly one of" in problems
+
+
+def test_string_at_an_angle_suspension_swings_to_the_inside(tmp_path):
+    heading = math.radians(-10.0)
+    xy = [(X0, Y0 + 300), (X0 + 300, Y0 + 300),
+          (X0 + 300 + 300 * math.cos(heading), Y0 + 300 + 300 * math.sin(heading))]
+    write_plane_raster(tmp_path / "terrain.tif", a=100.0)
+    write_structures(tmp_path / "structures.gpkg", xy, kinds=["strain", "suspension", "strain"],
+                     heights=[18.2, 20.0, 18.2], extra={"insulator_m": [None, 1.8, None]})
+    result = routesag.run(write_project(tmp_path, cases=[("still", 15.0, 0.0, 0.0)]))
+    p2 = by(result["structure_loads"], structure_id="P2")
+    h = by(result["conductors"], span_id="A:P1-P2")["horizontal_tension_n"]
+    # No wind: the string carries only the line-angle load 2 H sin(5 deg) (ASCE Manual 74) against the
+    # weight on its weight span, psi = atan(P / V) (FIELD.md §8 form, from memory).
+    angle_load = 2 * h * math.sin(math.radians(5.0))
+    assert p2["transverse_n"] == pytest.approx(angle_load, rel=1e-9)
+    assert math.radians(p2["swing_deg"]) == pytest.approx(
+        math.atan(angle_load / (1.628 * G * p2["weight_span_m"])), rel=1e-9)
+    # Towards the inside of the right turn: the clamp moves along the bisector's right-hand normal.
+    across = np.array([math.sin(math.radians(-5.0)), -math.cos(math.radians(-5.0))])
+    moved = np.array([p2.geometry.x, p2.geometry.y]) - np.asarray(xy[1])
+    np.testing.assert_allclose(moved, 1.8 * math.sin(math.radians(p2["swing_deg"])) * across, atol=1e-9)

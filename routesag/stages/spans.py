@@ -93,18 +93,22 @@ def _line_order(structures: pd.DataFrame):
         yield str(line_id), line.sort_values("seq", kind="stable")
 
 
+def _given_strings(line: pd.DataFrame) -> np.ndarray:
+    """insulator_m as given [m]; 0 where empty or absent."""
+    given = line["insulator_m"].to_numpy(dtype=float) if "insulator_m" in line else np.zeros(len(line))
+    return np.nan_to_num(given)
+
+
 def _string_lengths(line: pd.DataFrame) -> np.ndarray:
     """Suspension string length per structure [m]; 0 on strain structures (their strings lie along the wire)."""
-    given = line["insulator_m"].to_numpy(dtype=float) if "insulator_m" in line else np.zeros(len(line))
-    return np.where(acts_as_strain(line), 0.0, np.nan_to_num(given))
+    return np.where(acts_as_strain(line), 0.0, _given_strings(line))
 
 
 def ignored_strain_insulators(structures: pd.DataFrame) -> list[str]:
     """Warnings for insulator_m given on structures that act as strain structures (it is ignored there)."""
     messages = []
     for line_id, line in _line_order(structures):
-        given = line["insulator_m"].to_numpy(dtype=float) if "insulator_m" in line else np.zeros(len(line))
-        for sid in line["structure_id"].to_numpy()[acts_as_strain(line) & (np.nan_to_num(given) > 0)]:
+        for sid in line["structure_id"].to_numpy()[acts_as_strain(line) & (_given_strings(line) > 0)]:
             messages.append(f"line {line_id}: structure {sid}: insulator_m ignored: it acts as a strain "
                             "structure (strain strings lie along the wire, the wire is held at attach_height_m)")
     return messages
