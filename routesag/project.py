@@ -82,6 +82,22 @@ SCHEMA: dict[str, dict[str, Key]] = {
     "loads": {
         "ice_density_kg_m3": Key(NUMBER, 913.0, positive, "ice density [kg/m3]"),
     },
+    "wires": {
+        "name": Key(str, doc="wire name, e.g. a phase label or the earth wire"),
+        "offset_m": Key(NUMBER, 0.0, doc="horizontal offset from the structure centre, + to the right "
+                                          "looking along increasing seq [m]"),
+        "dz_m": Key(NUMBER, 0.0, doc="height above the structure's attach_height_m [m]"),
+        "insulated": Key(bool, True, doc="hangs from the structure's suspension string (insulator_m); "
+                                         "false for a wire clamped to the structure, e.g. an earth wire"),
+        "conductor": Key(dict, None, doc="the wire's own conductor (keys as [conductor])"),
+        "stringing": Key(dict, None, doc="the wire's own stringing state (keys as [stringing])"),
+    },
+    "insulators": {
+        "weight_n": Key(NUMBER, 0.0, non_negative, "weight of one suspension string [N]"),
+        "wind_area_m2": Key(NUMBER, 0.0, non_negative,
+                            "area of one suspension string facing the wind; its wind load is the load "
+                            "case's wind_pa times this area [m2]"),
+    },
     "clearance": {
         "ground_m": Key(NUMBER, check=positive, doc="required vertical clearance to terrain [m]"),
         "station_m": Key(NUMBER, 1.0, positive, "sampling interval along each span [m]"),
@@ -95,7 +111,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
 }
 
 # Tables given as [[name]] arrays rather than [name].
-ARRAY_TABLES = {"load_cases"}
+ARRAY_TABLES = {"load_cases", "wires"}
 REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases", "clearance"}
 TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
 
@@ -147,6 +163,23 @@ class Stringing:
         return self.catenary_m * bare_weight_n_m
 
 
+@dataclass(frozen=True)
+class Wire:
+    """One wire strung along the line: a phase conductor or an earth wire.
+
+    ``offset_m`` is horizontal, perpendicular to the line (along the bisector
+    at an angle structure), positive to the right looking along increasing
+    seq; ``dz_m`` is vertical from the structure's attachment height.
+    """
+
+    name: str
+    conductor: Conductor
+    stringing: Stringing
+    offset_m: float = 0.0
+    dz_m: float = 0.0
+    insulated: bool = True
+
+
 @dataclass
 class Project:
     """A validated project: every setting in SI units, paths resolved."""
@@ -167,10 +200,19 @@ class Project:
     output_path: Path
     pipeline_stages: list[str]
     settings: dict = field(default_factory=dict)
+    wires: list[Wire] = field(default_factory=list)
+    insulator_weight_n: float = 0.0
+    insulator_wind_area_m2: float = 0.0
 
     @property
     def base_dir(self) -> Path:
         return self.path.parent
+
+    def line_wires(self, line_id) -> list[Wire]:
+        """The wires of a line: the ``[[wires]]`` entries, or one wire named after the line at offset 0."""
+        if self.wires:
+            return list(self.wires)
+        return [Wire(name=str(line_id), conductor=self.conductor, stringing=self.stringing)]
 
     def input_paths(self) -> dict[str, Path]:
         """Every input file by role, for provenance."""
@@ -237,6 +279,7 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
                 given = None
             settings[table] = _check_table(source, f"[{table}]", given or {}, keys, problems)
     _check_stringing(source, settings.get("stringing", {}), problems)
+    _check_wires(source, settings.get("wires", []), problems)
     return settings, problems
 
 
@@ -258,14 +301,19 @@ def _check_array_table(source, table, given, keys, problems):
 
 
 def _check_table(source, label, given: dict, keys: dict[str, Key], problems) -> dict:
+    return _check_keys(f"{source}: {label}", given, keys, problems)
+
+
+def _check_keys(where: str, given: dict, keys: dict[str, Key], problems) -> dict:
+    """Check one table's keys; ``where`` names the file and table in every message."""
     out = {}
     for key in given:
         if key not in keys:
-            problems.append(f"{source}: {label}: unknown key {key!r}{_suggest(key, keys)}")
+            problems.append(f"{where}: unknown key {key!r}{_suggest(key, keys)}")
     for key, spec in keys.items():
         if key not in given:
             if spec.default is REQUIRED:
-                problems.append(f"{source}: {label}: missing key {key!r} ({spec.doc or spec.kind.__name__})")
+                problems.append(f"{where}: missing key {key!r} ({spec.doc or spec.kind.__name__})")
             else:
                 out[key] = spec.default
             continue
@@ -274,7 +322,7 @@ def _check_table(source, label, given: dict, keys: dict[str, Key], problems) -> 
         if message is None and spec.check is not None:
             message = spec.check(value)
         if message:
-            problems.append(f"{source}: {label}: {key} = {value!r} {message}")
+            problems.append(f"{where}: {key} = {value!r} {message}")
         else:
             out[key] = float(value) if spec.kind is NUMBER else value
     return out
@@ -297,11 +345,58 @@ def _kind_name(kind) -> str:
     return {str: "text", list: "a list", bool: "true/false"}.get(kind, getattr(kind, "__name__", str(kind)))
 
 
-def _check_stringing(source, stringing: dict, problems) -> None:
+def _check_stringing(source, stringing: dict, problems, label="[stringing]") -> None:
     given = [k for k in TENSION_KEYS if stringing.get(k) is not None]
     if len(given) != 1 and "temperature_c" in stringing:
-        problems.append(f"{source}: [stringing]: give exactly one of {', '.join(TENSION_KEYS)}"
+        problems.append(f"{source}: {label}: give exactly one of {', '.join(TENSION_KEYS)}"
                         f" (found {len(given)}{': ' + ', '.join(given) if given else ''})")
+
+
+def _wire_label(index: int, entry: dict) -> str:
+    name = entry.get("name")
+    return f"[[wires]] #{index + 1}" + (f" ({name!r})" if name is not None else "")
+
+
+def _check_wires(source, wires: list[dict], problems) -> None:
+    """Check each wire's own conductor and stringing tables, in place (defaults filled)."""
+    for i, entry in enumerate(wires):
+        label = _wire_label(i, entry)
+        if entry.get("conductor") is not None:
+            try:
+                resolve_conductor(entry["conductor"], f"{source}: {label} conductor")
+            except ProjectError as exc:
+                problems.extend(exc.problems)
+        if entry.get("stringing") is not None:
+            where = f"{label} stringing"
+            entry["stringing"] = _check_keys(f"{source}: {where}", entry["stringing"], SCHEMA["stringing"],
+                                             problems)
+            _check_stringing(source, entry["stringing"], problems, label=where)
+
+
+def resolve_conductor(table: dict, where: str) -> Conductor:
+    """Conductor in SI units from a table with the keys of ``[conductor]``.
+
+    Parameters
+    ----------
+    table : dict
+        The six explicit properties (diameter_mm, area_mm2, mass_kg_m,
+        rated_strength_kn, modulus_gpa, expansion_per_c).
+    where : str
+        File and table, named in every problem message.
+
+    Raises
+    ------
+    ProjectError
+        With every missing or invalid key.
+    """
+    problems: list[str] = []
+    c = _check_keys(where, table, SCHEMA["conductor"], problems)
+    if problems:
+        raise ProjectError(problems)
+    return Conductor(
+        diameter_m=c["diameter_mm"] / 1e3, area_m2=c["area_mm2"] / 1e6, mass_kg_m=c["mass_kg_m"],
+        rated_strength_n=c["rated_strength_kn"] * 1e3, modulus_pa=c["modulus_gpa"] * 1e9,
+        expansion_per_c=c["expansion_per_c"])
 
 
 def _suggest(word: str, valid) -> str:
@@ -311,11 +406,8 @@ def _suggest(word: str, valid) -> str:
 
 def _build_project(path: Path, s: dict, output) -> Project:
     base = path.parent
-    c = s["conductor"]
-    conductor = Conductor(
-        diameter_m=c["diameter_mm"] / 1e3, area_m2=c["area_mm2"] / 1e6, mass_kg_m=c["mass_kg_m"],
-        rated_strength_n=c["rated_strength_kn"] * 1e3, modulus_pa=c["modulus_gpa"] * 1e9,
-        expansion_per_c=c["expansion_per_c"])
+    conductor = resolve_conductor(s["conductor"], f"{path}: [conductor]")
+    stringing = Stringing(**s["stringing"])
     load_cases = [LoadCase(name=e["name"], temperature_c=e["temperature_c"], ice_m=e["ice_mm"] / 1e3,
                            wind_pa=e["wind_pa"], constant_n_m=e["constant_n_m"], wind_side=e["wind_side"])
                   for e in s["load_cases"]]
@@ -325,7 +417,19 @@ def _build_project(path: Path, s: dict, output) -> Project:
         structures_layer=s["inputs"]["structures_layer"], terrain_path=(base / s["inputs"]["terrain"]).resolve(),
         structures_crs=s["inputs"]["crs"], terrain_z_units=s["inputs"]["terrain_z_units"],
         attach_height_m=s["line"]["attach_height_m"], conductor=conductor,
-        stringing=Stringing(**s["stringing"]), load_cases=load_cases,
+        stringing=stringing, load_cases=load_cases,
         ground_clearance_m=s["clearance"]["ground_m"], station_m=s["clearance"]["station_m"],
         ice_density_kg_m3=s["loads"]["ice_density_kg_m3"], output_path=out.resolve(),
-        pipeline_stages=list(s["pipeline"]["stages"]), settings=s)
+        pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
+        wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],
+        insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"])
+
+
+def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, stringing: Stringing) -> Wire:
+    """A :class:`Wire`; without its own tables it takes the line's conductor and stringing."""
+    own = entry["conductor"]
+    return Wire(
+        name=entry["name"], offset_m=entry["offset_m"], dz_m=entry["dz_m"], insulated=entry["insulated"],
+        conductor=conductor if own is None else resolve_conductor(own, f"{path}: {_wire_label(index, entry)} "
+                                                                        "conductor"),
+        stringing=stringing if entry["stringing"] is None else Stringing(**entry["stringing"]))

@@ -15,13 +15,13 @@ def summary_text(result, per_span: bool = False) -> str:
     layers = result.layers
     conductors, violations = layers["conductors"], layers["clearance_violations"]
     lines = [f"routesag: {len(layers['spans'])} spans in {len(layers['sections'])} tension sections, "
-             f"{conductors['load_case'].nunique()} load cases"]
+             f"{conductors['load_case'].nunique()} load cases, {_wires(conductors)}"]
     if result.path:
         lines.append(f"written: {result.path}")
     lines.append("worst clearance per load case:")
     for case, group in conductors.groupby("load_case", sort=False):
         row = group.loc[group["min_clearance_m"].idxmin()] if group["min_clearance_m"].notna().any() else None
-        where = (f"span {row['span_id']} at {row['min_clearance_station_m']:.0f} m "
+        where = (f"span {row['span_id']}{_wire(row)} at {row['min_clearance_station_m']:.0f} m "
                  f"(required {row['required_m']:.2f} m)") if row is not None else "no terrain"
         worst = _fmt(row["min_clearance_m"]) if row is not None else "unknown"
         lines.append(f"  {case:<12} {worst:>8} m  {where}")
@@ -29,10 +29,11 @@ def summary_text(result, per_span: bool = False) -> str:
         lines.extend(_span_table(conductors))
     lines.append(f"violations: {len(violations)}")
     for _, v in violations.sort_values("deficit_m", ascending=False).iterrows():
-        lines.append(f"  span {v['span_id']} [{v['load_case']}] at {v['station_m']:.0f} m "
+        lines.append(f"  span {v['span_id']}{_wire(v)} [{v['load_case']}] at {v['station_m']:.0f} m "
                      f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {v['clearance_m']:.2f} m < "
                      f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
                      f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    lines.extend(_uplift_lines(layers.get("structure_loads")))
     unknown = conductors["unknown_m"].sum()
     if unknown > 0:
         lines.append(f"UNKNOWN: {unknown:.0f} m of conductor over missing terrain (not checked, not clear)")
@@ -51,3 +52,24 @@ def _span_table(conductors) -> list[str]:
     for span_id, row in table.iterrows():
         rows.append(f"  {span_id:<16}" + "".join(f"{_fmt(row.get(c)):>10}" for c in cases))
     return rows
+
+
+def _wires(conductors) -> str:
+    count = conductors["wire"].nunique() if "wire" in conductors else 1
+    return f"{count} wire{'s' if count != 1 else ''}"
+
+
+def _wire(row) -> str:
+    return f" wire {row['wire']}" if "wire" in row and row["wire"] else ""
+
+
+def _uplift_lines(loads) -> list[str]:
+    """Suspension structures that a wire pulls up, in some load case."""
+    if loads is None or "uplift" not in loads:
+        return []
+    up = loads[loads["uplift"].astype(bool)]
+    lines = [f"uplift at suspension structures: {len(up)}"]
+    for _, u in up.iterrows():
+        lines.append(f"  structure {u['structure_id']}{_wire(u)} [{u['load_case']}]: net vertical load "
+                     f"{u['vertical_n'] / 1e3:.2f} kN (up), weight span {u['weight_span_m']:.0f} m")
+    return lines

@@ -4,10 +4,13 @@ The scenario is made up from start to finish. Line ``L1`` (we call it the
 "Vornholt - Quillmere 132 kV" line; both names are invented) runs 15
 structures over rolling ground in a projected CRS (EPSG:32633, UTM 33N). It
 crosses a stream valley, climbs over a ridge where it turns right by
-26 degrees, and passes over a small knoll in the middle of span T11-T12. The
-knoll is sized so that the hot load case breaks a 7.5 m ground clearance
-there while the cold case does not; ``tests/test_sample.py`` checks that
-with an independent parabolic sag estimate.
+26 degrees, and passes over a small knoll in the middle of span T11-T12. It
+carries three phases side by side on 4.5 m cross-arms, hanging from 1.8 m
+suspension strings, and an earth wire 5 m above the cross-arms with its own
+smaller conductor. The knoll is sized so that the hot load case breaks a
+7.5 m ground clearance there while the cold case does not;
+``tests/test_sample.py`` checks that with an independent parabolic sag
+estimate.
 
 Everything is deterministic: the terrain is a smooth analytic function
 (no random noise), so the same files come out on every run.
@@ -57,8 +60,8 @@ class StructureDesign:
     ahead_span_m : float or None
         Horizontal span to the next structure [m]; None on the last one.
     attach_height_m : float or None
-        Conductor attachment height above ground [m]; None leaves it to the
-        project default.
+        Attachment height above ground [m] (the top of the suspension string
+        on suspension structures); None leaves it to the project default.
     surveyed_ground : bool
         Whether the row carries a surveyed ``ground_z_m``.
     """
@@ -70,24 +73,28 @@ class StructureDesign:
     surveyed_ground: bool = False
 
 
-# Three tension sections: T01-T05, T05-T09 (angle), T09-T15.
+# Three tension sections: T01-T05, T05-T09 (angle), T09-T15. Suspension
+# heights are the tops of their strings: the phases hang SUSPENSION_STRING_M
+# lower.
 SCHEDULE = (
     StructureDesign("T01", "strain", 262.0, 22.0),
-    StructureDesign("T02", "suspension", 318.0, 23.5),
-    StructureDesign("T03", "suspension", 236.0, 22.0),
-    StructureDesign("T04", "suspension", 296.0, 19.5),
+    StructureDesign("T02", "suspension", 318.0, 25.5),
+    StructureDesign("T03", "suspension", 236.0, 24.0),
+    StructureDesign("T04", "suspension", 296.0, 21.5),
     StructureDesign("T05", "strain", 374.0, 24.0, surveyed_ground=True),
     StructureDesign("T06", "suspension", 228.0, None),
-    StructureDesign("T07", "suspension", 305.0, 21.5),
+    StructureDesign("T07", "suspension", 305.0, 23.5),
     StructureDesign("T08", "suspension", 284.0, None),
     StructureDesign("T09", "strain", 247.0, 18.0),
-    StructureDesign("T10", "suspension", 336.0, 22.5),
-    StructureDesign("T11", "suspension", 352.0, 24.5),
-    StructureDesign("T12", "suspension", 291.0, 26.0, surveyed_ground=True),
+    StructureDesign("T10", "suspension", 336.0, 24.5),
+    StructureDesign("T11", "suspension", 352.0, 26.5),
+    StructureDesign("T12", "suspension", 291.0, 28.0, surveyed_ground=True),
     StructureDesign("T13", "suspension", 214.0, None),
-    StructureDesign("T14", "suspension", 279.0, 19.0),
+    StructureDesign("T14", "suspension", 279.0, 21.0),
     StructureDesign("T15", "strain", None, None),
 )
+# Length of every suspension string, top to wire clamp [m].
+SUSPENSION_STRING_M = 1.8
 
 PROJECT_TOML = """\
 [inputs]
@@ -96,7 +103,7 @@ structures_layer = "structures"
 terrain = "terrain.tif"
 
 [line]
-attach_height_m = 20.0
+attach_height_m = 22.0
 
 [conductor]
 diameter_mm = 28.14
@@ -109,6 +116,40 @@ expansion_per_c = 18.9e-6
 [stringing]
 temperature_c = 15.0
 horizontal_tension_kn = 28.0
+
+[[wires]]
+name = "phase_a"
+offset_m = -4.5
+
+[[wires]]
+name = "phase_b"
+offset_m = 0.0
+
+[[wires]]
+name = "phase_c"
+offset_m = 4.5
+
+[[wires]]
+name = "earth"
+offset_m = 0.0
+dz_m = 5.0
+insulated = false
+
+[wires.conductor]
+diameter_mm = 16.31
+area_mm2 = 157.2
+mass_kg_m = 0.5459
+rated_strength_kn = 50.0
+modulus_gpa = 75.0
+expansion_per_c = 18.9e-6
+
+[wires.stringing]
+temperature_c = 15.0
+tension_percent_rts = 22.0
+
+[insulators]
+weight_n = 600.0
+wind_area_m2 = 0.35
 
 [[load_cases]]
 name = "hot"
@@ -248,8 +289,9 @@ def structure_frame():
     Returns
     -------
     geopandas.GeoDataFrame
-        Columns structure_id, seq, line_id, kind, attach_height_m [m] and
-        ground_z_m [m]; missing heights are NaN (written as NULL).
+        Columns structure_id, seq, line_id, kind, attach_height_m [m],
+        ground_z_m [m] and insulator_m [m] (suspension structures only);
+        missing values are NaN (written as NULL).
     """
     import geopandas as gpd
 
@@ -266,6 +308,7 @@ def structure_frame():
             "attach_height_m": [np.nan if s.attach_height_m is None else s.attach_height_m
                                 for s in SCHEDULE],
             "ground_z_m": ground_z,
+            "insulator_m": [SUSPENSION_STRING_M if s.kind == "suspension" else np.nan for s in SCHEDULE],
         },
         geometry=gpd.points_from_xy(x_m, y_m),
         crs=CRS,

@@ -2,7 +2,8 @@
 
 The clearance story is checked with a parabolic sag estimate written here,
 independent of the package: the parabolic change-of-state cubic on the ruling
-span of each tension section, and a parabola between attachment points.
+span of each tension section, and a parabola between the centre phase's
+clamps (the string length below the attachment on suspension structures).
 """
 
 import tomllib
@@ -79,7 +80,7 @@ def span_lengths_m(structures):
 
 
 def span_clearances_m(survey, terrain, case_name):
-    """Smallest vertical conductor-to-terrain distance per span for one case [m]."""
+    """Smallest vertical distance from the centre phase to the terrain per span for one case [m]."""
     project, structures = survey["project"], survey["structures"]
     conductor, stringing = project["conductor"], project["stringing"]
     case = next(c for c in project["load_cases"] if c["name"] == case_name)
@@ -91,7 +92,7 @@ def span_clearances_m(survey, terrain, case_name):
     sampled = bilinear(terrain["heights"], terrain["transform"], x, y)
     ground = np.where(np.isnan(ground), sampled, ground)
     attach = structures["attach_height_m"].fillna(project["line"]["attach_height_m"]).to_numpy()
-    support_z = ground + attach
+    support_z = ground + attach - structures["insulator_m"].fillna(0.0).to_numpy()
     spans = span_lengths_m(structures)
     strain = np.flatnonzero(structures["kind"].to_numpy() == "strain")
     clearances = {}
@@ -147,6 +148,18 @@ def test_project_conductor_is_drake(survey):
         "rated_strength_kn": 140.1, "modulus_gpa": 70.0, "expansion_per_c": 18.9e-6}
 
 
+def test_project_has_three_phases_and_an_earth_wire(survey):
+    wires = {w["name"]: w for w in survey["project"]["wires"]}
+    assert [w.get("offset_m", 0.0) for w in wires.values()] == [-4.5, 0.0, 4.5, 0.0]
+    phases = [w for w in wires.values() if "conductor" not in w]
+    assert len(phases) == 3 and all(w.get("dz_m", 0.0) == 0.0 for w in phases)
+    earth = wires["earth"]
+    assert earth["dz_m"] == 5.0 and earth["insulated"] is False
+    # Its own, smaller conductor and its own stringing.
+    assert earth["conductor"]["diameter_mm"] < survey["project"]["conductor"]["diameter_mm"]
+    assert set(earth["stringing"]) == {"temperature_c", "tension_percent_rts"}
+
+
 def test_project_load_cases(survey):
     cases = {c["name"]: c for c in survey["project"]["load_cases"]}
     assert list(cases) == ["hot", "cold", "ice", "wind"]
@@ -164,7 +177,8 @@ def test_structures_layer_schema_and_crs(survey):
     assert info["geometry_type"] in ("Point", "Point Z")
     types = dict(zip(info["fields"], info["ogr_types"]))
     assert types == {"structure_id": "OFTString", "seq": "OFTInteger", "line_id": "OFTString",
-                     "kind": "OFTString", "attach_height_m": "OFTReal", "ground_z_m": "OFTReal"}
+                     "kind": "OFTString", "attach_height_m": "OFTReal", "ground_z_m": "OFTReal",
+                     "insulator_m": "OFTReal"}
 
 
 def test_structures_sequence_and_kinds(survey):
@@ -206,8 +220,15 @@ def test_attach_heights_vary_and_some_use_the_default(survey):
     heights = survey["structures"]["attach_height_m"]
     assert heights.isna().any()
     given = heights.dropna()
-    assert given.between(18, 26).all()
+    assert given.between(18, 28).all()
     assert given.nunique() >= 4
+
+
+def test_suspension_structures_carry_strings_and_strain_structures_none(survey):
+    structures = survey["structures"]
+    suspension = structures["kind"] == "suspension"
+    assert (structures.loc[suspension, "insulator_m"] == 1.8).all()
+    assert structures.loc[~suspension, "insulator_m"].isna().all()
 
 
 def test_surveyed_ground_agrees_with_terrain(survey, terrain):

@@ -18,7 +18,7 @@ from pyproj import CRS
 from routesag.errors import DataError
 
 REQUIRED_FIELDS = ("structure_id", "seq")
-OPTIONAL_FIELDS = ("line_id", "kind", "attach_height_m", "ground_z_m")
+OPTIONAL_FIELDS = ("line_id", "kind", "attach_height_m", "ground_z_m", "insulator_m")
 KINDS = ("suspension", "strain")
 MAX_ATTACH_HEIGHT_M = 200.0
 DEFAULT_LINE_ID = "line"
@@ -99,7 +99,8 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
     """Validate fields and geometry; return a clean frame with normalised columns.
 
     Output columns: structure_id (str), line_id (str), seq (float), kind,
-    attach_height_m, ground_z_m (NaN when not surveyed), geometry (points).
+    attach_height_m, ground_z_m (NaN when not surveyed), insulator_m
+    (suspension string length, 0 when not given), geometry (points).
     """
     problems: list[str] = []
     where = f"structures file {source}"
@@ -123,8 +124,7 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
     out["attach_height_m"] = _attach_heights(gdf, default_attach_height_m, labels, where, problems)
     out["ground_z_m"] = (_numeric(gdf["ground_z_m"], "ground_z_m", labels, where, problems)
                          if "ground_z_m" in gdf.columns else np.nan)
-    if "insulator_m" in gdf.columns:
-        out["insulator_m"] = _numeric(gdf["insulator_m"], "insulator_m", labels, where, problems)
+    out["insulator_m"] = _insulators(gdf, out["attach_height_m"].to_numpy(), labels, where, problems)
     for i, sid in enumerate(out["structure_id"]):
         if pd.isna(sid) or sid == "":
             problems.append(f"{where}: {labels[i]}: field 'structure_id' is empty")
@@ -178,6 +178,18 @@ def _attach_heights(gdf, default, labels, where, problems) -> np.ndarray:
     if default is not None:
         heights = np.where(np.isnan(heights), default, heights)
     return heights
+
+
+def _insulators(gdf, heights, labels, where, problems) -> np.ndarray:
+    """Suspension string lengths [m]; empty means none (0). The wire must hang above the ground."""
+    if "insulator_m" not in gdf.columns:
+        return np.zeros(len(gdf))
+    lengths = _numeric(gdf["insulator_m"], "insulator_m", labels, where, problems)
+    for i, (length, height) in enumerate(zip(lengths, heights)):
+        if length < 0 or length >= height:
+            problems.append(f"{where}: {labels[i]}: field 'insulator_m' = {length:g} m; expected "
+                            f"0 <= length < attach_height_m ({height:g} m)")
+    return np.nan_to_num(lengths, nan=0.0)
 
 
 def _check_geometry(out, labels, where, problems) -> None:

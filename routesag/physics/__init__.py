@@ -1,4 +1,4 @@
-"""Conductor physics: catenary geometry, loads, change of state, the wire in 3D.
+"""Conductor physics: catenary geometry, loads, change of state, the wire in 3D, supports.
 
 Plain numpy/scipy functions in SI units (m, N, N/m, C); no file or GIS
 imports, so the physics can be used and tested on its own.
@@ -34,6 +34,14 @@ from .loads import (
     wind_pressure_pa,
 )
 from .state_change import change_of_state, parabolic_change_of_state, ruling_span
+from .supports import (
+    insulator_swing_rad,
+    line_tension_load_n,
+    structure_axes,
+    swing_displacement_m,
+    weight_span_m,
+    wind_span_m,
+)
 
 __all__ = [
     # catenary
@@ -72,4 +80,11 @@ __all__ = [
     "conductor_stations",
     "span_geometry",
     "SpanGeometry",
+    # supports
+    "structure_axes",
+    "weight_span_m",
+    "wind_span_m",
+    "line_tension_load_n",
+    "insulator_swing_rad",
+    "swing_displacement_m",
 ]

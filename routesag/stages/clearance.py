@@ -51,7 +51,8 @@ def summarise(profile, clearance: np.ndarray, required_m: float) -> dict:
         status = "unknown"
     else:
         status = "clear"
-    return {"span_id": profile.span_id, "load_case": profile.load_case, "min_clearance_m": min_clearance,
+    return {"span_id": profile.span_id, "wire": profile.wire, "load_case": profile.load_case,
+            "min_clearance_m": min_clearance,
             "min_clearance_station_m": at, "unknown_m": unknown_m, "required_m": required_m, "status": status}
 
 
@@ -63,7 +64,7 @@ def find_violations(profile, ground, clearance, required_m) -> list[dict]:
         worst = first + int(np.argmin(clearance[first:last + 1]))
         x, y, z = profile.xyz[worst]
         records.append({
-            "span_id": profile.span_id, "load_case": profile.load_case,
+            "span_id": profile.span_id, "wire": profile.wire, "load_case": profile.load_case,
             "station_m": float(profile.stations_m[worst]), "start_m": float(profile.stations_m[first]),
             "end_m": float(profile.stations_m[last]), "x": float(x), "y": float(y),
             "conductor_z_m": float(z), "ground_z_m": float(ground[worst]),

@@ -18,16 +18,17 @@ from routesag.pipeline import Stage
 CAUTION = ("Screening aid only: loads and required clearances come from the governing code (NESC, EN 50341 "
            "national annex, local rules); results must be confirmed by a licensed engineer.")
 
-VIOLATION_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "load_case", "station_m", "start_m", "end_m",
+VIOLATION_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case", "station_m", "start_m", "end_m",
                      "conductor_z_m", "ground_z_m", "clearance_m", "required_m", "deficit_m"]
 
 
 class AssembleLayers(Stage):
     name = "assemble_layers"
     requires = ("project", "structures", "spans", "sections", "tensions", "conductors", "clearance",
-                "violations", "work_crs")
+                "violations", "structure_loads", "work_crs")
     provides = ("layers",)
-    description = "turn results into GeoDataFrames: structures, spans, sections, conductors, violations, run_info"
+    description = ("turn results into GeoDataFrames: structures, spans, sections, conductors, violations, "
+                   "structure loads, run_info")
 
     def run(self, data, ctx):
         crs = data["work_crs"]
@@ -39,6 +40,7 @@ class AssembleLayers(Stage):
         layers["conductors"] = (conductors_layer(data["conductors"], data["clearance"], data["tensions"],
                                                  spans, crs), "LineString Z")
         layers["clearance_violations"] = (violations_layer(data["violations"], spans, crs), "Point Z")
+        layers["structure_loads"] = (structure_loads_layer(data["structure_loads"], crs), "Point Z")
         layers["run_info"] = (run_info_table(data["project"], ctx), None)
         return {"layers": layers}
 
@@ -62,6 +64,7 @@ def structures_layer(structures, spans, crs) -> gpd.GeoDataFrame:
     ids = structures["structure_id"].astype(str)
     section = ids.map(first).fillna(ids.map(last))
     columns = ["structure_id", "line_id", "seq", "kind", "attach_height_m", "ground_z_m", "attach_z_m"]
+    columns += [c for c in ("insulator_m",) if c in structures]
     frame = pd.DataFrame(structures[columns]).assign(section_id=section.to_numpy())
     geometry = shapely.points(structures["x"], structures["y"], structures["attach_z_m"])
     return gpd.GeoDataFrame(frame.astype({"structure_id": str, "line_id": str}), geometry=geometry, crs=crs)
@@ -80,18 +83,18 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
     rows = []
     for p in profiles:
         length_m = float(np.linalg.norm(np.diff(p.xyz, axis=0), axis=1).sum())
-        rows.append({"span_id": p.span_id, "section_id": p.section_id, "load_case": p.load_case,
+        rows.append({"span_id": p.span_id, "section_id": p.section_id, "wire": p.wire, "load_case": p.load_case,
                      "horizontal_tension_n": p.horizontal_tension_n, "max_tension_n": p.max_tension_n,
                      "catenary_m": p.catenary_m, "sag_m": p.sag_m, "low_point_m": p.low_point_m,
                      "blowout_deg": p.blowout_deg, "length_m": length_m})
     frame = pd.DataFrame(rows)
     if len(frame):
         ends = spans[["span_id", "from_id", "to_id"]]
-        case_info = tensions[["section_id", "load_case", "temperature_c", "ice_mm", "wind_pa"]]
+        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "ice_mm", "wind_pa"]]
         frame = (frame.merge(ends, on="span_id", how="left")
-                 .merge(case_info, on=["section_id", "load_case"], how="left")
-                 .merge(clearance, on=["span_id", "load_case"], how="left"))
-        order = ["span_id", "from_id", "to_id", "section_id", "load_case"]
+                 .merge(case_info, on=["section_id", "wire", "load_case"], how="left")
+                 .merge(clearance, on=["span_id", "wire", "load_case"], how="left"))
+        order = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case"]
         frame = frame[order + [c for c in frame.columns if c not in order]]
     geometry = [shapely.linestrings(p.xyz) for p in profiles]
     return gpd.GeoDataFrame(frame, geometry=geometry, crs=crs)
@@ -100,13 +103,20 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
 def violations_layer(violations, spans, crs) -> gpd.GeoDataFrame:
     """Violation points (Point Z on the wire at the worst station of each stretch)."""
     if len(violations) == 0:
-        empty = pd.DataFrame({c: pd.Series(dtype=str if c.endswith("_id") or c == "load_case" else float)
+        empty = pd.DataFrame({c: pd.Series(dtype=str if c.endswith("_id") or c in ("wire", "load_case") else float)
                               for c in VIOLATION_COLUMNS})
         return gpd.GeoDataFrame(empty, geometry=gpd.GeoSeries([], crs=crs), crs=crs)
     frame = violations.merge(spans[["span_id", "from_id", "to_id", "section_id"]], on="span_id", how="left")
     geometry = shapely.points(frame["x"], frame["y"], frame["conductor_z_m"])
     extra = [c for c in frame.columns if c not in VIOLATION_COLUMNS + ["x", "y"]]
     return gpd.GeoDataFrame(frame[VIOLATION_COLUMNS + extra], geometry=geometry, crs=crs)
+
+
+def structure_loads_layer(loads, crs) -> gpd.GeoDataFrame:
+    """Loads per structure, wire and load case as Point Z at the wire clamp (swung in that case)."""
+    geometry = shapely.points(loads["x"], loads["y"], loads["z"])
+    frame = loads.drop(columns=["x", "y", "z"]).astype({"structure_id": str, "line_id": str, "wire": str})
+    return gpd.GeoDataFrame(frame, geometry=geometry, crs=crs)
 
 
 def run_info_table(project, ctx) -> pd.DataFrame:

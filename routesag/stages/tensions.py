@@ -15,33 +15,44 @@ from routesag.pipeline import Stage
 
 class SolveTensions(Stage):
     name = "solve_tensions"
-    requires = ("project", "sections")
+    requires = ("project", "sections", "wire_spans")
     provides = ("tensions",)
-    description = "change of state from the stringing state to every load case, per tension section"
+    description = "change of state from the stringing state to every load case, per tension section and wire"
 
     def run(self, data, ctx):
         project = data["project"]
-        rows = [row for _, section in data["sections"].iterrows()
-                for row in section_tensions(section, project)]
+        ruling = data["wire_spans"].groupby(["section_id", "wire"])["ruling_span_m"].first()
+        rows = []
+        for _, section in data["sections"].iterrows():
+            for wire in project.line_wires(section["line_id"]):
+                own = section.copy()
+                own["ruling_span_m"] = ruling[(section["section_id"], wire.name)]  # the wire's own spans
+                rows += [dict(row, wire=wire.name)
+                         for row in section_tensions(own, project, wire.conductor, wire.stringing)]
         return {"tensions": pd.DataFrame(rows)}
 
 
-def stringing_tension_n(project) -> float:
+def stringing_tension_n(project, conductor=None, stringing=None) -> float:
     """Horizontal tension of the stringing state [N], checked against the rated strength."""
-    conductor = project.conductor
-    tension_n = project.stringing.horizontal_tension_n(conductor, bare_weight_n_m(conductor.mass_kg_m))
+    conductor = conductor or project.conductor
+    stringing = stringing or project.stringing
+    tension_n = stringing.horizontal_tension_n(conductor, bare_weight_n_m(conductor.mass_kg_m))
     if tension_n >= conductor.rated_strength_n:
         raise InputError(f"project file {project.path}: [stringing] tension {tension_n / 1e3:.1f} kN is not "
                          f"below the rated strength {conductor.rated_strength_n / 1e3:.1f} kN")
     return tension_n
 
 
-def section_tensions(section, project) -> list[dict]:
-    """Rows of (section, load case) with the solved horizontal tension and loads."""
-    c = project.conductor
+def section_tensions(section, project, conductor=None, stringing=None) -> list[dict]:
+    """Rows of (section, load case) with the solved horizontal tension and loads.
+
+    ``conductor`` and ``stringing`` default to the project's (a wire may bring its own).
+    """
+    c = conductor or project.conductor
+    stringing = stringing or project.stringing
     w0 = bare_weight_n_m(c.mass_kg_m)
-    h0 = stringing_tension_n(project)
-    t0 = project.stringing.temperature_c
+    h0 = stringing_tension_n(project, c, stringing)
+    t0 = stringing.temperature_c
     rows = []
     for case in project.load_cases:
         load = conductor_load(c.mass_kg_m, c.diameter_m, case.ice_m, case.wind_pa, case.constant_n_m,
