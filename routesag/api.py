@@ -5,7 +5,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from routesag.errors import OutputError
-from routesag.pipeline import RunContext, assemble_chain, run_chain
+from routesag.pipeline import RunContext, assemble_chain, run_chain, stages_for
 from routesag.project import Project, load_project
 
 
@@ -54,6 +54,35 @@ def run(project_path, out=None, progress=None) -> RunResult:
     layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
                      warnings=ctx.warnings, notes=ctx.notes)
+
+
+def compute(project_path, targets, progress=None) -> dict:
+    """Run only the stages needed for ``targets``; nothing is written.
+
+    Parameters
+    ----------
+    project_path : str or Path
+        The TOML project file.
+    targets : iterable of str
+        Dataset names, e.g. ``("sag_table",)``.
+    progress : callable, optional
+        Called with each stage's name as it starts.
+
+    Returns
+    -------
+    dict
+        Every dataset computed on the way, by name.
+    """
+    project = load_project(project_path)
+    chain = stages_for(assemble_chain(project.pipeline_stages), tuple(targets))
+    data = {"project": project}
+    try:
+        run_chain(chain, data, RunContext(), progress=progress)
+    finally:
+        terrain = data.get("terrain")
+        if terrain is not None and hasattr(terrain, "close"):
+            terrain.close()
+    return data
 
 
 def check_destination(project: Project) -> None:

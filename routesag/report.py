@@ -33,6 +33,7 @@ def summary_text(result, per_span: bool = False) -> str:
                      f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {v['clearance_m']:.2f} m < "
                      f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
                      f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    lines.extend(_tension_lines(result))
     unknown = conductors["unknown_m"].sum()
     if unknown > 0:
         lines.append(f"UNKNOWN: {unknown:.0f} m of conductor over missing terrain (not checked, not clear)")
@@ -51,3 +52,27 @@ def _span_table(conductors) -> list[str]:
     for span_id, row in table.iterrows():
         rows.append(f"  {span_id:<16}" + "".join(f"{_fmt(row.get(c)):>10}" for c in cases))
     return rows
+
+
+def _tension_lines(result) -> list[str]:
+    """Design stringing tensions (limits mode) and every tension limit exceeded."""
+    limits = result.project.limits
+    if not limits:
+        return []
+    lines = []
+    sections = result.layers["sections"]
+    if result.project.stringing.from_limits:
+        lines.append("design stringing tension per tension section (largest that meets every limit):")
+        for _, row in sections.iterrows():
+            label = row["section_id"] + (f" {row['wire']}" if "wire" in row else "")
+            lines.append(f"  {label:<12} {row['design_tension_n'] / 1e3:8.2f} kN "
+                         f"({row['stringing_percent_rts']:.1f} % RTS), set by {row['governing_limit']} "
+                         f"in {row['governing_case']!r}")
+    exceeded = result.layers["tension_exceedances"]
+    checked = result.notes.get("tension_limits_checked", "?")
+    lines.append(f"tension limits: {checked} checks, {len(exceeded)} exceeded")
+    for _, e in exceeded.sort_values("utilisation", ascending=False).iterrows():
+        lines.append(f"  section {e['section_id']} [{e['load_case']}, {e['condition']}]: {e['limit']} exceeded "
+                     f"({e['percent_rts']:.1f} % RTS, H/w {e['catenary_m']:.0f} m; "
+                     f"{100 * e['utilisation']:.1f} % of the limit)")
+    return lines
