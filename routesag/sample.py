@@ -109,6 +109,7 @@ expansion_per_c = 18.9e-6
 [stringing]
 temperature_c = 15.0
 horizontal_tension_kn = 28.0
+creep_allowance_c = 10.0
 
 [[load_cases]]
 name = "hot"
@@ -127,6 +128,15 @@ ice_mm = 12.5
 name = "wind"
 temperature_c = 15.0
 wind_pa = 430.0
+
+[[limits]]
+load_case = "ice"
+max_percent_rts = 50.0
+applies_to = "support"
+
+[[limits]]
+load_case = "cold"
+max_percent_rts = 25.0
 
 [clearance]
 ground_m = 7.5
