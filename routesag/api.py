@@ -42,15 +42,8 @@ def run(project_path, out=None, progress=None) -> RunResult:
     """
     project = load_project(project_path, output=out)
     check_destination(project)
-    chain = assemble_chain(project.pipeline_stages)
     ctx = RunContext()
-    data = {"project": project}
-    try:
-        run_chain(chain, data, ctx, progress=progress)
-    finally:
-        terrain = data.get("terrain")
-        if terrain is not None and hasattr(terrain, "close"):
-            terrain.close()
+    data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress)
     layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
                      warnings=ctx.warnings, notes=ctx.notes)
@@ -75,9 +68,14 @@ def compute(project_path, targets, progress=None) -> dict:
     """
     project = load_project(project_path)
     chain = stages_for(assemble_chain(project.pipeline_stages), tuple(targets))
+    return _run_closing_terrain(chain, project, RunContext(), progress)
+
+
+def _run_closing_terrain(chain, project, ctx, progress) -> dict:
+    """Run a chain from the project; the terrain reader is closed however the run ends."""
     data = {"project": project}
     try:
-        run_chain(chain, data, RunContext(), progress=progress)
+        run_chain(chain, data, ctx, progress=progress)
     finally:
         terrain = data.get("terrain")
         if terrain is not None and hasattr(terrain, "close"):

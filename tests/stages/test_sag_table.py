@@ -83,3 +83,12 @@ def test_sag_table_command_prints_csv_and_writes_no_geopackage(survey):
     lines = result.output.splitlines()
     assert lines[0].startswith("section_id,kind,span_id") and len(lines) == 1 + 75
     assert not (survey.parent / "out.gpkg").exists()
+
+
+def test_only_the_stages_the_table_needs_run(survey):
+    from routesag.api import compute
+
+    seen = []
+    data = compute(survey, ("sag_table",), progress=seen.append)
+    assert seen == ["read_inputs", "build_spans", "solve_tensions", "build_sag_table"]
+    assert "sag_table" in data and "conductors" not in data
