@@ -4,6 +4,7 @@ from pathlib import Path
 import click
 
 from routesag.cli.options import handle_errors
+from routesag.errors import OutputError
 
 #: Decimals written per column kind: tensions to the newton, lengths to the millimetre.
 DECIMALS = {"horizontal_tension_n": 0, "max_tension_n": 0, "catenary_m": 1, "temperature_c": 1}
@@ -37,6 +38,9 @@ def sag_table_command(project, csv_path):
     if csv_path is None:
         click.echo(text, nl=False)
         return
-    Path(csv_path).write_text(text, encoding="utf-8")
+    try:
+        Path(csv_path).write_text(text, encoding="utf-8")
+    except OSError as exc:
+        raise OutputError(f"cannot write the sag table to {csv_path}: {exc.strerror or exc}") from None
     if not click.get_current_context().find_root().obj.get("quiet"):
         click.echo(f"sag table: {len(table)} rows, {table['section_id'].nunique()} tension sections -> {csv_path}")

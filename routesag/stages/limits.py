@@ -141,10 +141,10 @@ def design_stringing_tension(solve, limits, rated_strength_n, lowest_n, highest_
     names = {limit.load_case for limit in limits}
 
     def worst(tension_n):
+        """(utilisation, limit) of the most used limit at this stringing tension."""
         states = solve(tension_n, names)
-        return max(((float(utilisation(limit, s.horizontal_tension_n, s.max_support_tension_n, s.catenary_m,
-                                       rated_strength_n)), limit)
-                    for limit in limits for s in [states[limit.load_case]]), key=lambda pair: pair[0])
+        uses = [(_state_utilisation(limit, states[limit.load_case], rated_strength_n), limit) for limit in limits]
+        return max(uses, key=lambda pair: pair[0])
 
     low_use, low_limit = worst(lowest_n)
     if low_use > 1.0:
@@ -163,3 +163,8 @@ def design_stringing_tension(solve, limits, rated_strength_n, lowest_n, highest_
             low = middle
     use, limit = worst(low)
     return Design(low, limit.load_case, limit.describe(), use)
+
+
+def _state_utilisation(limit, state, rated_strength_n) -> float:
+    return float(utilisation(limit, state.horizontal_tension_n, state.max_support_tension_n, state.catenary_m,
+                             rated_strength_n))

@@ -92,3 +92,8 @@ def test_only_the_stages_the_table_needs_run(survey):
     data = compute(survey, ("sag_table",), progress=seen.append)
     assert seen == ["read_inputs", "build_spans", "solve_tensions", "build_sag_table"]
     assert "sag_table" in data and "conductors" not in data
+
+
+def test_sag_table_into_a_missing_folder_is_bad_output(survey, tmp_path):
+    result = CliRunner().invoke(main, ["sag-table", str(survey), "--csv", str(tmp_path / "no" / "sag.csv")])
+    assert result.exit_code == 2 and "cannot write the sag table" in result.output
