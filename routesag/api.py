@@ -5,7 +5,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from routesag.errors import OutputError
-from routesag.pipeline import RunContext, assemble_chain, run_chain
+from routesag.pipeline import RunContext, assemble_chain, run_chain, stages_for
 from routesag.project import Project, load_project
 
 
@@ -42,8 +42,37 @@ def run(project_path, out=None, progress=None) -> RunResult:
     """
     project = load_project(project_path, output=out)
     check_destination(project)
-    chain = assemble_chain(project.pipeline_stages)
     ctx = RunContext()
+    data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress)
+    layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
+    return RunResult(layers=layers, path=data.get("geopackage"), project=project,
+                     warnings=ctx.warnings, notes=ctx.notes)
+
+
+def compute(project_path, targets, progress=None) -> dict:
+    """Run only the stages needed for ``targets``; nothing is written.
+
+    Parameters
+    ----------
+    project_path : str or Path
+        The TOML project file.
+    targets : iterable of str
+        Dataset names, e.g. ``("sag_table",)``.
+    progress : callable, optional
+        Called with each stage's name as it starts.
+
+    Returns
+    -------
+    dict
+        Every dataset computed on the way, by name.
+    """
+    project = load_project(project_path)
+    chain = stages_for(assemble_chain(project.pipeline_stages), tuple(targets))
+    return _run_closing_terrain(chain, project, RunContext(), progress)
+
+
+def _run_closing_terrain(chain, project, ctx, progress) -> dict:
+    """Run a chain from the project; the terrain reader is closed however the run ends."""
     data = {"project": project}
     try:
         run_chain(chain, data, ctx, progress=progress)
@@ -51,9 +80,7 @@ def run(project_path, out=None, progress=None) -> RunResult:
         terrain = data.get("terrain")
         if terrain is not None and hasattr(terrain, "close"):
             terrain.close()
-    layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
-    return RunResult(layers=layers, path=data.get("geopackage"), project=project,
-                     warnings=ctx.warnings, notes=ctx.notes)
+    return data
 
 
 def check_destination(project: Project) -> None:

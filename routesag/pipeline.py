@@ -22,7 +22,8 @@ ENTRY_POINT_GROUP = "routesag.stages"
 
 # The built-in chain, in a valid order; the runner re-orders by requires/provides anyway.
 DEFAULT_CHAIN = ("read_inputs", "build_spans", "solve_tensions", "compute_structure_loads", "build_conductors",
-                 "sample_terrain", "check_clearance", "assemble_layers", "write_geopackage")
+                 "sample_terrain", "check_clearance", "check_tension_limits", "build_sag_table",
+                 "assemble_layers", "write_geopackage")
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)
@@ -126,6 +127,21 @@ def order_stages(stages: list[Stage]) -> list[Stage]:
         have.update(ready[0].provides)
         pending.remove(ready[0])
     return ordered
+
+
+def stages_for(chain: list[Stage], targets) -> list[Stage]:
+    """The part of an ordered chain needed to provide ``targets``, in chain order."""
+    providers = {d: s for s in chain for d in s.provides}
+    missing = [t for t in targets if t not in providers]
+    if missing:
+        raise PipelineError(f"no stage provides {', '.join(map(repr, missing))}")
+    needed, pending = set(), list(targets)
+    while pending:
+        stage = providers.get(pending.pop())
+        if stage is not None and stage.name not in needed:
+            needed.add(stage.name)
+            pending.extend(stage.requires)
+    return [s for s in chain if s.name in needed]
 
 
 def run_chain(chain: list[Stage], data: dict[str, Any], ctx: RunContext, progress=None) -> dict[str, Any]:

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable
 
+from routesag.catalog import PROPERTY_FIELDS, close_matches, find_conductor
 from routesag.errors import ProjectError
 
 REQUIRED = object()
@@ -57,18 +58,23 @@ SCHEMA: dict[str, dict[str, Key]] = {
                                "attachment height above ground for structures without attach_height_m [m]"),
     },
     "conductor": {
-        "diameter_mm": Key(NUMBER, check=positive, doc="overall diameter [mm]"),
-        "area_mm2": Key(NUMBER, check=positive, doc="total cross-section area [mm2]"),
-        "mass_kg_m": Key(NUMBER, check=positive, doc="mass per unit length [kg/m]"),
-        "rated_strength_kn": Key(NUMBER, check=positive, doc="rated tensile strength [kN]"),
-        "modulus_gpa": Key(NUMBER, check=positive, doc="final modulus of elasticity [GPa]"),
-        "expansion_per_c": Key(NUMBER, check=positive, doc="thermal expansion coefficient [1/degC]"),
+        # Without a catalog name all six properties are required (checked in _complete_conductor).
+        "name": Key(str, None, doc="catalog conductor: designation or code word (see `routesag conductors`)"),
+        "diameter_mm": Key(NUMBER, None, positive, "overall diameter [mm]"),
+        "area_mm2": Key(NUMBER, None, positive, "total cross-section area [mm2]"),
+        "mass_kg_m": Key(NUMBER, None, positive, "mass per unit length [kg/m]"),
+        "rated_strength_kn": Key(NUMBER, None, positive, "rated tensile strength [kN]"),
+        "modulus_gpa": Key(NUMBER, None, positive, "final modulus of elasticity [GPa]"),
+        "expansion_per_c": Key(NUMBER, None, positive, "thermal expansion coefficient [1/degC]"),
     },
     "stringing": {
         "temperature_c": Key(NUMBER, doc="conductor temperature of the known state [degC]"),
         "horizontal_tension_kn": Key(NUMBER, None, positive, "horizontal tension of the known state [kN]"),
         "tension_percent_rts": Key(NUMBER, None, positive, "horizontal tension as % of rated strength"),
         "catenary_m": Key(NUMBER, None, positive, "catenary constant H/w of the bare wire [m]"),
+        "creep_allowance_c": Key(NUMBER, None, non_negative,
+                                 "creep as an equivalent temperature increase of the final state [degC]"),
+        "from_limits": Key(bool, False, doc="stringing tension: the largest that meets every [[limits]] entry"),
     },
     "load_cases": {
         "name": Key(str),
@@ -78,6 +84,16 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "constant_n_m": Key(NUMBER, 0.0, non_negative, "load constant added to the resultant (NESC K) [N/m]"),
         "wind_side": Key(str, "right", one_of("right", "left"),
                          "side the wire blows to, looking along increasing seq"),
+        "condition": Key(str, None, one_of("initial", "final"),
+                         "initial (as strung) or final (after creep); default final when "
+                         "[stringing] creep_allowance_c is given, else initial"),
+    },
+    "limits": {
+        "load_case": Key(str, doc="name of the [[load_cases]] entry the limit applies to"),
+        "max_percent_rts": Key(NUMBER, None, positive, "largest tension as % of rated strength"),
+        "max_catenary_m": Key(NUMBER, None, positive, "largest catenary constant H/w [m]"),
+        "applies_to": Key(str, "horizontal", one_of("horizontal", "support"),
+                          "horizontal tension, or the largest support tension of the section's spans"),
     },
     "loads": {
         "ice_density_kg_m3": Key(NUMBER, 913.0, positive, "ice density [kg/m3]"),
@@ -111,7 +127,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
 }
 
 # Tables given as [[name]] arrays rather than [name].
-ARRAY_TABLES = {"load_cases", "wires"}
+ARRAY_TABLES = {"load_cases", "wires", "limits"}
 REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases", "clearance"}
 TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
 
@@ -127,6 +143,7 @@ class Conductor:
     modulus_pa: float
     expansion_per_c: float
     name: str = "conductor"
+    source: str = "project file"
 
 
 @dataclass(frozen=True)
@@ -139,10 +156,29 @@ class LoadCase:
     wind_pa: float = 0.0
     constant_n_m: float = 0.0
     wind_side: str = "right"
+    condition: str = "initial"
 
     @property
     def side_sign(self) -> float:
         return 1.0 if self.wind_side == "right" else -1.0
+
+
+@dataclass(frozen=True)
+class TensionLimit:
+    """Largest tension (as % of rated strength) and/or catenary constant allowed in one load case."""
+
+    load_case: str
+    max_percent_rts: float | None = None
+    max_catenary_m: float | None = None
+    applies_to: str = "horizontal"
+
+    def describe(self) -> str:
+        parts = []
+        if self.max_percent_rts is not None:
+            parts.append(f"{self.max_percent_rts:g} % RTS {self.applies_to}")
+        if self.max_catenary_m is not None:
+            parts.append(f"H/w {self.max_catenary_m:g} m")
+        return " and ".join(parts)
 
 
 @dataclass(frozen=True)
@@ -153,6 +189,17 @@ class Stringing:
     horizontal_tension_kn: float | None = None
     tension_percent_rts: float | None = None
     catenary_m: float | None = None
+    creep_allowance_c: float | None = None
+    from_limits: bool = False
+
+    def state_temperature_c(self, temperature_c: float, condition: str) -> float:
+        """Temperature at which the initial state stands for ``condition`` [degC].
+
+        The final (crept) state at T is the initial state at T + creep allowance.
+        """
+        if condition == "final":
+            return temperature_c + (self.creep_allowance_c or 0.0)
+        return temperature_c
 
     def horizontal_tension_n(self, conductor: Conductor, bare_weight_n_m: float) -> float:
         """Horizontal tension of the known state [N]."""
@@ -203,6 +250,7 @@ class Project:
     wires: list[Wire] = field(default_factory=list)
     insulator_weight_n: float = 0.0
     insulator_wind_area_m2: float = 0.0
+    limits: list[TensionLimit] = field(default_factory=list)
 
     @property
     def base_dir(self) -> Path:
@@ -278,8 +326,12 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
                 problems.append(f"{source}: [{table}] must be a table")
                 given = None
             settings[table] = _check_table(source, f"[{table}]", given or {}, keys, problems)
+    if isinstance(raw.get("conductor"), dict):
+        settings["conductor"] = _complete_conductor(f"{source}: [conductor]", settings["conductor"], problems)
     _check_stringing(source, settings.get("stringing", {}), problems)
     _check_wires(source, settings.get("wires", []), problems)
+    _set_conditions(source, settings, problems)
+    _check_limits(source, settings, problems)
     return settings, problems
 
 
@@ -305,7 +357,7 @@ def _check_table(source, label, given: dict, keys: dict[str, Key], problems) -> 
 
 
 def _check_keys(where: str, given: dict, keys: dict[str, Key], problems) -> dict:
-    """Check one table's keys; ``where`` names the file and table in every message."""
+    """Check one table's keys; ``where`` (file and table) starts every message."""
     out = {}
     for key in given:
         if key not in keys:
@@ -328,6 +380,70 @@ def _check_keys(where: str, given: dict, keys: dict[str, Key], problems) -> dict
     return out
 
 
+def resolve_conductor(table: dict, where: str) -> Conductor:
+    """Conductor from a ``[conductor]``-style table: a catalog name, explicit fields, or both.
+
+    Explicit fields override the catalog's values; without ``name`` all six
+    properties are required.
+
+    Parameters
+    ----------
+    table : dict
+        The raw TOML table (``name`` and/or the six properties).
+    where : str
+        File and table for messages, e.g. ``"line.toml: [[wires]] #4 conductor"``.
+
+    Raises
+    ------
+    ProjectError
+        Every problem found: unknown keys, bad values, an unknown catalog name
+        (with close matches), missing properties.
+    """
+    problems: list[str] = []
+    if not isinstance(table, dict):
+        raise ProjectError(f"{where}: must be a table")
+    checked = _check_keys(where, table, SCHEMA["conductor"], problems)
+    complete = _complete_conductor(where, checked, problems)
+    if problems:
+        raise ProjectError(problems)
+    return _conductor_from(complete)
+
+
+def _complete_conductor(where: str, given: dict, problems) -> dict:
+    """Fill properties not given from the catalog entry ``name``; report what is still missing."""
+    out = dict(given)
+    name = given.get("name")
+    out["source"] = "project file"
+    if name is not None:
+        entry = find_conductor(name)
+        if entry is None:
+            close = close_matches(name)
+            hint = (f"close matches: {', '.join(e.label for e in close)}" if close
+                    else "list the catalog with `routesag conductors`")
+            problems.append(f"{where}: name = {name!r} is not in the conductor catalog; {hint}")
+            return out
+        explicit = [k for k in PROPERTY_FIELDS if given.get(k) is not None]
+        for key, value in entry.properties().items():
+            if out.get(key) is None:
+                out[key] = value
+        out["name"] = entry.label
+        out["source"] = f"catalog ({entry.source})" + (f"; given: {', '.join(explicit)}" if explicit else "")
+    missing = [k for k in PROPERTY_FIELDS if out.get(k) is None]
+    if missing:
+        problems.append(f"{where}: missing {', '.join(map(repr, missing))}: give name = \"...\" "
+                        f"(a catalog conductor) or all of {', '.join(PROPERTY_FIELDS)}")
+    return out
+
+
+def _conductor_from(c: dict) -> Conductor:
+    """SI Conductor from a completed ``[conductor]`` table."""
+    return Conductor(
+        diameter_m=c["diameter_mm"] / 1e3, area_m2=c["area_mm2"] / 1e6, mass_kg_m=c["mass_kg_m"],
+        rated_strength_n=c["rated_strength_kn"] * 1e3, modulus_pa=c["modulus_gpa"] * 1e9,
+        expansion_per_c=c["expansion_per_c"], name=c.get("name") or "conductor",
+        source=c.get("source", "project file"))
+
+
 def _type_problem(value, spec: Key) -> str | None:
     kinds = spec.kind if isinstance(spec.kind, tuple) else (spec.kind,)
     if isinstance(value, bool) and bool not in kinds:
@@ -347,9 +463,42 @@ def _kind_name(kind) -> str:
 
 def _check_stringing(source, stringing: dict, problems, label="[stringing]") -> None:
     given = [k for k in TENSION_KEYS if stringing.get(k) is not None]
-    if len(given) != 1 and "temperature_c" in stringing:
+    if stringing.get("from_limits"):
+        if given:
+            problems.append(f"{source}: {label}: from_limits = true finds the tension; remove "
+                            f"{', '.join(given)}")
+    elif len(given) != 1 and "temperature_c" in stringing:
         problems.append(f"{source}: {label}: give exactly one of {', '.join(TENSION_KEYS)}"
-                        f" (found {len(given)}{': ' + ', '.join(given) if given else ''})")
+                        f" (found {len(given)}{': ' + ', '.join(given) if given else ''})"
+                        f", or from_limits = true")
+
+
+def _set_conditions(source, settings: dict, problems) -> None:
+    """Default each load case's condition: final when a creep allowance is given, else initial."""
+    allowance = settings.get("stringing", {}).get("creep_allowance_c")
+    for i, case in enumerate(settings.get("load_cases", [])):
+        if case.get("condition") is None:
+            case["condition"] = "initial" if allowance is None else "final"
+        elif case["condition"] == "final" and allowance is None:
+            problems.append(f"{source}: [[load_cases]] #{i + 1}: condition = 'final' needs [stringing] "
+                            f"creep_allowance_c (give 0 for a conductor that does not creep)")
+
+
+def _check_limits(source, settings: dict, problems) -> None:
+    """Each limit names a known load case and holds a criterion; from_limits needs a limit."""
+    names = [c.get("name") for c in settings.get("load_cases", [])]
+    for i, limit in enumerate(settings.get("limits", [])):
+        where = f"{source}: [[limits]] #{i + 1}"
+        case = limit.get("load_case")
+        if case is not None and names and case not in names:
+            problems.append(f"{where}: load_case = {case!r} is not a [[load_cases]] name"
+                            f"{_suggest(case, [n for n in names if n])}")
+        if limit.get("max_percent_rts") is None and limit.get("max_catenary_m") is None:
+            problems.append(f"{where}: give max_percent_rts, max_catenary_m or both")
+        elif limit.get("max_percent_rts") is not None and limit["max_percent_rts"] >= 100:
+            problems.append(f"{where}: max_percent_rts = {limit['max_percent_rts']!r} must be below 100")
+    if settings.get("stringing", {}).get("from_limits") and not settings.get("limits"):
+        problems.append(f"{source}: [stringing] from_limits = true needs at least one [[limits]] entry")
 
 
 def _wire_label(index: int, entry: dict) -> str:
@@ -373,31 +522,6 @@ def _check_wires(source, wires: list[dict], problems) -> None:
             _check_stringing(source, entry["stringing"], problems, label=where)
 
 
-def resolve_conductor(table: dict, where: str) -> Conductor:
-    """Conductor in SI units from a table with the keys of ``[conductor]``.
-
-    Parameters
-    ----------
-    table : dict
-        The six explicit properties (diameter_mm, area_mm2, mass_kg_m,
-        rated_strength_kn, modulus_gpa, expansion_per_c).
-    where : str
-        File and table, named in every problem message.
-
-    Raises
-    ------
-    ProjectError
-        With every missing or invalid key.
-    """
-    problems: list[str] = []
-    c = _check_keys(where, table, SCHEMA["conductor"], problems)
-    if problems:
-        raise ProjectError(problems)
-    return Conductor(
-        diameter_m=c["diameter_mm"] / 1e3, area_m2=c["area_mm2"] / 1e6, mass_kg_m=c["mass_kg_m"],
-        rated_strength_n=c["rated_strength_kn"] * 1e3, modulus_pa=c["modulus_gpa"] * 1e9,
-        expansion_per_c=c["expansion_per_c"])
-
 
 def _suggest(word: str, valid) -> str:
     close = difflib.get_close_matches(word, list(valid), n=1, cutoff=0.5)
@@ -406,10 +530,11 @@ def _suggest(word: str, valid) -> str:
 
 def _build_project(path: Path, s: dict, output) -> Project:
     base = path.parent
-    conductor = resolve_conductor(s["conductor"], f"{path}: [conductor]")
+    conductor = _conductor_from(s["conductor"])
     stringing = Stringing(**s["stringing"])
     load_cases = [LoadCase(name=e["name"], temperature_c=e["temperature_c"], ice_m=e["ice_mm"] / 1e3,
-                           wind_pa=e["wind_pa"], constant_n_m=e["constant_n_m"], wind_side=e["wind_side"])
+                           wind_pa=e["wind_pa"], constant_n_m=e["constant_n_m"], wind_side=e["wind_side"],
+                           condition=e["condition"])
                   for e in s["load_cases"]]
     out = Path(output) if output is not None else base / s["output"]["path"]
     return Project(
@@ -422,7 +547,8 @@ def _build_project(path: Path, s: dict, output) -> Project:
         ice_density_kg_m3=s["loads"]["ice_density_kg_m3"], output_path=out.resolve(),
         pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
         wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],
-        insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"])
+        insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"],
+        limits=[TensionLimit(**e) for e in s["limits"]])
 
 
 def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, stringing: Stringing) -> Wire:

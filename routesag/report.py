@@ -14,7 +14,7 @@ def summary_text(result, per_span: bool = False) -> str:
     """Short report: counts, worst clearance per load case, violations, unknowns, caution."""
     layers = result.layers
     conductors, violations = layers["conductors"], layers["clearance_violations"]
-    lines = [f"routesag: {len(layers['spans'])} spans in {len(layers['sections'])} tension sections, "
+    lines = [f"routesag: {len(layers['spans'])} spans in {layers['sections']['section_id'].nunique()} tension sections, "
              f"{conductors['load_case'].nunique()} load cases, {_wires(conductors)}"]
     if result.path:
         lines.append(f"written: {result.path}")
@@ -34,6 +34,7 @@ def summary_text(result, per_span: bool = False) -> str:
                      f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
                      f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
     lines.extend(_uplift_lines(layers.get("structure_loads")))
+    lines.extend(_tension_lines(result))
     unknown = conductors["unknown_m"].sum()
     if unknown > 0:
         lines.append(f"UNKNOWN: {unknown:.0f} m of conductor over missing terrain (not checked, not clear)")
@@ -72,4 +73,28 @@ def _uplift_lines(loads) -> list[str]:
     for _, u in up.iterrows():
         lines.append(f"  structure {u['structure_id']}{_wire(u)} [{u['load_case']}]: net vertical load "
                      f"{u['vertical_n'] / 1e3:.2f} kN (up), weight span {u['weight_span_m']:.0f} m")
+    return lines
+
+
+def _tension_lines(result) -> list[str]:
+    """Design stringing tensions (limits mode) and every tension limit exceeded."""
+    limits = result.project.limits
+    if not limits:
+        return []
+    lines = []
+    sections = result.layers["sections"]
+    if result.project.stringing.from_limits:
+        lines.append("design stringing tension per tension section (largest that meets every limit):")
+        for _, row in sections.iterrows():
+            label = row["section_id"] + (f" {row['wire']}" if "wire" in row else "")
+            lines.append(f"  {label:<12} {row['design_tension_n'] / 1e3:8.2f} kN "
+                         f"({row['stringing_percent_rts']:.1f} % RTS), set by {row['governing_limit']} "
+                         f"in {row['governing_case']!r}")
+    exceeded = result.layers["tension_exceedances"]
+    checked = result.notes.get("tension_limits_checked", "?")
+    lines.append(f"tension limits: {checked} checks, {len(exceeded)} exceeded")
+    for _, e in exceeded.sort_values("utilisation", ascending=False).iterrows():
+        lines.append(f"  section {e['section_id']}{_wire(e)} [{e['load_case']}, {e['condition']}]: {e['limit']} exceeded "
+                     f"({e['percent_rts']:.1f} % RTS, H/w {e['catenary_m']:.0f} m; "
+                     f"{100 * e['utilisation']:.1f} % of the limit)")
     return lines

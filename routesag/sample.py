@@ -116,6 +116,7 @@ expansion_per_c = 18.9e-6
 [stringing]
 temperature_c = 15.0
 horizontal_tension_kn = 28.0
+creep_allowance_c = 10.0
 
 [[wires]]
 name = "phase_a"
@@ -145,7 +146,7 @@ expansion_per_c = 18.9e-6
 
 [wires.stringing]
 temperature_c = 15.0
-tension_percent_rts = 22.0
+tension_percent_rts = 18.0
 
 [insulators]
 weight_n = 600.0
@@ -168,6 +169,15 @@ ice_mm = 12.5
 name = "wind"
 temperature_c = 15.0
 wind_pa = 430.0
+
+[[limits]]
+load_case = "ice"
+max_percent_rts = 50.0
+applies_to = "support"
+
+[[limits]]
+load_case = "cold"
+max_percent_rts = 25.0
 
 [clearance]
 ground_m = 7.5

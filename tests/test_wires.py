@@ -282,7 +282,7 @@ def test_wire_conductor_problems_name_the_wire(survey):
     with pytest.raises(ProjectError) as info:
         routesag.load_project(survey)
     problems = "\n".join(info.value.problems)
-    assert "[[wires]] #1 ('E') conductor: missing key 'area_mm2'" in problems
+    assert "[[wires]] #1 ('E') conductor: missing 'area_mm2'" in problems
     assert "[[wires]] #1 ('E') stringing: give exactly one of" in problems
 
 

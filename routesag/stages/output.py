@@ -25,10 +25,10 @@ VIOLATION_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "wire", "load_
 class AssembleLayers(Stage):
     name = "assemble_layers"
     requires = ("project", "structures", "spans", "sections", "tensions", "conductors", "clearance",
-                "violations", "structure_loads", "work_crs")
+                "violations", "structure_loads", "tension_exceedances", "sag_table", "work_crs")
     provides = ("layers",)
     description = ("turn results into GeoDataFrames: structures, spans, sections, conductors, violations, "
-                   "structure loads, run_info")
+                   "structure loads, tension exceedances, sag table, run_info")
 
     def run(self, data, ctx):
         crs = data["work_crs"]
@@ -36,11 +36,13 @@ class AssembleLayers(Stage):
         layers = OrderedDict()
         layers["structures"] = (structures_layer(data["structures"], spans, crs), "Point Z")
         layers["spans"] = (spans_layer(spans, crs), "LineString Z")
-        layers["sections"] = (data["sections"].copy(), None)
+        layers["sections"] = (sections_layer(data["sections"], data["tensions"]), None)
         layers["conductors"] = (conductors_layer(data["conductors"], data["clearance"], data["tensions"],
                                                  spans, crs), "LineString Z")
         layers["clearance_violations"] = (violations_layer(data["violations"], spans, crs), "Point Z")
         layers["structure_loads"] = (structure_loads_layer(data["structure_loads"], crs), "Point Z")
+        layers["tension_exceedances"] = (data["tension_exceedances"].copy(), None)
+        layers["sag_table"] = (data["sag_table"].copy(), None)
         layers["run_info"] = (run_info_table(data["project"], ctx), None)
         return {"layers": layers}
 
@@ -78,6 +80,16 @@ def spans_layer(spans, crs) -> gpd.GeoDataFrame:
     return gpd.GeoDataFrame(spans[columns].copy(), geometry=shapely.linestrings(coords), crs=crs)
 
 
+def sections_layer(sections, tensions) -> pd.DataFrame:
+    """Tension sections with the stringing tension used and, in limits mode, the limit that set it."""
+    keys = ["section_id"] + (["wire"] if "wire" in tensions.columns else [])
+    design = tensions.groupby(keys, sort=False).first().reset_index()
+    design["stringing_percent_rts"] = 100.0 * design["stringing_tension_n"] / design["rated_strength_n"]
+    columns = ["stringing_tension_n", "stringing_percent_rts", "design_tension_n", "governing_case",
+               "governing_limit"]
+    return sections.merge(design[keys + columns], on="section_id", how="left")
+
+
 def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFrame:
     """One LineString Z per span and load case with tensions, sag and clearance summary."""
     rows = []
@@ -90,10 +102,13 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
     frame = pd.DataFrame(rows)
     if len(frame):
         ends = spans[["span_id", "from_id", "to_id"]]
-        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "ice_mm", "wind_pa"]]
+        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "ice_mm", "wind_pa",
+                              "condition", "rated_strength_n"]]
         frame = (frame.merge(ends, on="span_id", how="left")
                  .merge(case_info, on=["section_id", "wire", "load_case"], how="left")
                  .merge(clearance, on=["span_id", "wire", "load_case"], how="left"))
+        frame["tension_percent_rts"] = 100.0 * frame["horizontal_tension_n"] / frame["rated_strength_n"]
+        frame["max_tension_percent_rts"] = 100.0 * frame["max_tension_n"] / frame.pop("rated_strength_n")
         order = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case"]
         frame = frame[order + [c for c in frame.columns if c not in order]]
     geometry = [shapely.linestrings(p.xyz) for p in profiles]

@@ -1,35 +1,67 @@
 """Stage: horizontal tension of every tension section in every load case.
 
-The stringing state is carried to each load case by the change-of-state
-equation on the section's ruling span; all spans of a section share it.
+The stringing state (initial condition, bare wire) is carried to each load
+case by the change-of-state equation on the section's ruling span; all spans
+of a section share it. A load case in the final condition is the initial
+state at its temperature plus the creep allowance (creep as an equivalent
+temperature increase). With ``[stringing] from_limits = true`` the stringing
+tension of each section is the largest that meets every tension limit.
 """
 from __future__ import annotations
 
+import math
+from dataclasses import dataclass
+
+import numpy as np
 import pandas as pd
 
 from routesag.errors import InputError, SolveError
-from routesag.physics.loads import bare_weight_n_m, conductor_load
+from routesag.physics.catenary import support_tensions
+from routesag.physics.conductor3d import swung_span
+from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_load
 from routesag.physics.state_change import change_of_state
 from routesag.pipeline import Stage
+from routesag.stages.limits import design_stringing_tension
+
+#: Slackest stringing tried by the design search: catenary constant = ruling span (sag about 13 % of span).
+DESIGN_LOWEST_CATENARY_PER_SPAN = 1.0
 
 
 class SolveTensions(Stage):
     name = "solve_tensions"
     requires = ("project", "sections", "wire_spans")
     provides = ("tensions",)
-    description = "change of state from the stringing state to every load case, per tension section and wire"
+    description = ("change of state from the stringing state to every load case (initial or final), per "
+                   "tension section and wire; stringing tension from the tension limits on request")
 
     def run(self, data, ctx):
         project = data["project"]
-        ruling = data["wire_spans"].groupby(["section_id", "wire"])["ruling_span_m"].first()
+        by_wire = dict(tuple(data["wire_spans"].groupby(["section_id", "wire"], sort=False)))
         rows = []
         for _, section in data["sections"].iterrows():
             for wire in project.line_wires(section["line_id"]):
+                spans = by_wire[(section["section_id"], wire.name)]
                 own = section.copy()
-                own["ruling_span_m"] = ruling[(section["section_id"], wire.name)]  # the wire's own spans
+                own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]  # the wire's own spans
                 rows += [dict(row, wire=wire.name)
-                         for row in section_tensions(own, project, wire.conductor, wire.stringing)]
+                         for row in section_tensions(own, project, wire.conductor, wire.stringing, spans)]
         return {"tensions": pd.DataFrame(rows)}
+
+
+@dataclass(frozen=True)
+class CaseState:
+    """One load case solved on one tension section."""
+
+    name: str
+    load: LoadPerLength
+    condition: str
+    state_temperature_c: float      # temperature the initial-state equation is solved at [degC]
+    horizontal_tension_n: float
+    max_support_tension_n: float    # largest support tension over the section's spans [N]
+
+    @property
+    def catenary_m(self) -> float:
+        return self.horizontal_tension_n / self.load.resultant_n_m
 
 
 def stringing_tension_n(project, conductor=None, stringing=None) -> float:
@@ -43,32 +75,80 @@ def stringing_tension_n(project, conductor=None, stringing=None) -> float:
     return tension_n
 
 
-def section_tensions(section, project, conductor=None, stringing=None) -> list[dict]:
+def section_tensions(section, project, conductor=None, stringing=None, spans=None) -> list[dict]:
     """Rows of (section, load case) with the solved horizontal tension and loads.
 
-    ``conductor`` and ``stringing`` default to the project's (a wire may bring its own).
+    Parameters
+    ----------
+    section : pandas.Series
+        One row of the sections table (section_id, ruling_span_m).
+    project : routesag.project.Project
+    conductor, stringing : optional
+        The wire's own conductor and stringing; default the project's.
+    spans : pandas.DataFrame, optional
+        The section's spans (span_m, dz_m) for support tensions; without them
+        the ruling span, level, stands in.
     """
-    c = conductor or project.conductor
+    conductor = conductor or project.conductor
     stringing = stringing or project.stringing
-    w0 = bare_weight_n_m(c.mass_kg_m)
-    h0 = stringing_tension_n(project, c, stringing)
-    t0 = stringing.temperature_c
-    rows = []
-    for case in project.load_cases:
-        load = conductor_load(c.mass_kg_m, c.diameter_m, case.ice_m, case.wind_pa, case.constant_n_m,
-                              project.ice_density_kg_m3)
-        try:
-            h = change_of_state(section["ruling_span_m"], h0, w0, t0, load.resultant_n_m, case.temperature_c,
-                                c.modulus_pa, c.area_m2, c.expansion_per_c)
-        except SolveError as exc:
-            raise SolveError(f"tension section {section['section_id']}, load case {case.name!r}: "
-                             f"change of state cannot be solved ({exc})") from None
-        rows.append({
-            "section_id": section["section_id"], "load_case": case.name,
-            "temperature_c": case.temperature_c, "ice_mm": case.ice_m * 1e3, "wind_pa": case.wind_pa,
-            "vertical_n_m": load.vertical_n_m, "wind_n_m": load.wind_n_m,
-            "resultant_n_m": load.resultant_n_m, "blowout_deg": float(load.blowout_rad * 180 / 3.141592653589793),
-            "blowout_rad": load.blowout_rad, "side": case.side_sign,
-            "horizontal_tension_n": h, "catenary_m": h / load.resultant_n_m,
-        })
-    return rows
+    ruling_m = float(section["ruling_span_m"])
+    spans_m, dz_m = _span_geometry(ruling_m, spans)
+    where = f"tension section {section['section_id']}"
+    cases = project.load_cases
+
+    def solve(h0_n, names=None):
+        chosen = [c for c in cases if names is None or c.name in names]
+        return {c.name: solve_case(where, c, h0_n, ruling_m, spans_m, dz_m, conductor, stringing,
+                                   project.ice_density_kg_m3) for c in chosen}
+
+    design = None
+    if stringing.from_limits:
+        lowest_n = DESIGN_LOWEST_CATENARY_PER_SPAN * ruling_m * float(bare_weight_n_m(conductor.mass_kg_m))
+        design = design_stringing_tension(solve, project.limits, conductor.rated_strength_n, lowest_n,
+                                          conductor.rated_strength_n, where)
+        h0_n = design.tension_n
+    else:
+        h0_n = stringing_tension_n(project, conductor, stringing)
+    return [_row(section, case, state, h0_n, conductor, design)
+            for case, state in zip(cases, solve(h0_n).values())]
+
+
+def _span_geometry(ruling_m, spans):
+    if spans is None or len(spans) == 0:
+        return np.array([ruling_m]), np.array([0.0])
+    return spans["span_m"].to_numpy(dtype=float), spans["dz_m"].to_numpy(dtype=float)
+
+
+def solve_case(where, case, h0_n, ruling_m, spans_m, dz_m, conductor, stringing, ice_density_kg_m3) -> CaseState:
+    """Carry the stringing state (``h0_n`` at the stringing temperature, bare) to one load case."""
+    c = conductor
+    load = conductor_load(c.mass_kg_m, c.diameter_m, case.ice_m, case.wind_pa, case.constant_n_m,
+                          ice_density_kg_m3)
+    state_t = stringing.state_temperature_c(case.temperature_c, case.condition)
+    try:
+        h = change_of_state(ruling_m, h0_n, float(bare_weight_n_m(c.mass_kg_m)), stringing.temperature_c,
+                            load.resultant_n_m, state_t, c.modulus_pa, c.area_m2, c.expansion_per_c)
+    except SolveError as exc:
+        raise SolveError(f"{where}, load case {case.name!r}: change of state cannot be solved ({exc})") from None
+    plane_span, plane_dz = swung_span(spans_m, dz_m, load.blowout_rad)
+    at_a, at_b = support_tensions(plane_span, plane_dz, h, load.resultant_n_m)
+    return CaseState(case.name, load, case.condition, state_t, h, float(np.max(np.maximum(at_a, at_b))))
+
+
+def _row(section, case, state: CaseState, h0_n, conductor, design) -> dict:
+    load, rts = state.load, conductor.rated_strength_n
+    return {
+        "section_id": section["section_id"], "load_case": case.name,
+        "temperature_c": case.temperature_c, "ice_mm": case.ice_m * 1e3, "wind_pa": case.wind_pa,
+        "condition": state.condition, "state_temperature_c": state.state_temperature_c,
+        "vertical_n_m": load.vertical_n_m, "wind_n_m": load.wind_n_m,
+        "resultant_n_m": load.resultant_n_m, "blowout_deg": math.degrees(load.blowout_rad),
+        "blowout_rad": load.blowout_rad, "side": case.side_sign,
+        "horizontal_tension_n": state.horizontal_tension_n, "catenary_m": state.catenary_m,
+        "max_support_tension_n": state.max_support_tension_n, "rated_strength_n": rts,
+        "tension_percent_rts": 100.0 * state.horizontal_tension_n / rts,
+        "stringing_tension_n": h0_n,
+        "design_tension_n": design.tension_n if design else math.nan,
+        "governing_case": design.governing_case if design else None,
+        "governing_limit": design.governing_limit if design else None,
+    }

@@ -1,0 +1,89 @@
+"""Stage: stringing sag tables for crews.
+
+Per tension section: the horizontal tension, support tension and mid-span sag
+of the ruling span and of every span at conductor temperatures from -20 C to
++50 C in 5 C steps, initial condition (as strung), bare wire, no wind. Each
+temperature is one change of state from the section's stringing state on the
+ruling span; every span of the section shares that horizontal tension and
+hangs as an exact inclined catenary.
+
+References
+----------
+.. [1] Douglass, D.A. and Thrash, R., "Sag and tension of conductor", ch. 14
+   in L.L. Grigsby (ed.), Electric Power Generation, Transmission and
+   Distribution, 3rd ed., CRC Press, 2012 (ruling span, stringing sag
+   tables, initial condition).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from routesag.physics.catenary import midspan_sag, support_tensions
+from routesag.physics.loads import bare_weight_n_m
+from routesag.physics.state_change import change_of_state
+from routesag.pipeline import Stage
+
+#: Conductor temperatures of the table [degC].
+TEMPERATURES_C = np.arange(-20.0, 50.0 + 1e-9, 5.0)
+
+COLUMNS = ["section_id", "wire", "kind", "span_id", "from_id", "to_id", "span_m", "dz_m", "temperature_c",
+           "condition", "horizontal_tension_n", "max_tension_n", "sag_m", "catenary_m"]
+
+
+class BuildSagTable(Stage):
+    name = "build_sag_table"
+    requires = ("project", "sections", "wire_spans", "tensions")
+    provides = ("sag_table",)
+    description = "sag and tension of the ruling span and every span, -20..+50 C in 5 C steps, initial, bare"
+
+    def run(self, data, ctx):
+        return {"sag_table": sag_table(data["project"], data["sections"], data["wire_spans"], data["tensions"])}
+
+
+def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATURES_C) -> pd.DataFrame:
+    """Rows of (section, wire, ruling span or span, temperature); see :data:`COLUMNS`.
+
+    The stringing tension of each section and wire is read from ``tensions``
+    (``stringing_tension_n``), so a design tension found from the limits is used.
+    """
+    stringing_n = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])[
+        "stringing_tension_n"]
+    by_wire = dict(tuple(wire_spans.groupby(["section_id", "wire"], sort=False)))
+    frames = []
+    for _, section in sections.iterrows():
+        for wire in project.line_wires(section["line_id"]):
+            key = (section["section_id"], wire.name)
+            frames.append(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c))
+    if not frames:
+        return pd.DataFrame(columns=COLUMNS)
+    return pd.concat(frames, ignore_index=True)[COLUMNS]
+
+
+def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c) -> pd.DataFrame:
+    """The sag table of one wire in one tension section (ruling span first, then its spans in order)."""
+    c, stringing = wire.conductor, wire.stringing
+    w_n_m = float(bare_weight_n_m(c.mass_kg_m))
+    ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
+    temps = np.asarray(temperatures_c, dtype=float)
+    h_n = np.array([change_of_state(ruling_m, stringing_tension_n, w_n_m, stringing.temperature_c, w_n_m, t,
+                                    c.modulus_pa, c.area_m2, c.expansion_per_c) for t in temps])
+    ruling = {"kind": "ruling", "span_id": None, "from_id": None, "to_id": None}
+    span_rows = [{"kind": "span", "span_id": s.span_id, "from_id": s.from_id, "to_id": s.to_id}
+                 for s in spans.itertuples()]
+    span_m = np.concatenate([[ruling_m], spans["span_m"].to_numpy(dtype=float)])[:, None]
+    dz_m = np.concatenate([[0.0], spans["dz_m"].to_numpy(dtype=float)])[:, None]
+    catenary_m = h_n[None, :] / w_n_m
+    at_a, at_b = support_tensions(span_m, dz_m, h_n[None, :], w_n_m)
+    shape = (len(span_m), len(temps))
+    frame = pd.DataFrame({
+        "section_id": section["section_id"], "wire": wire.name,
+        "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
+        "temperature_c": np.broadcast_to(temps, shape).ravel(), "condition": "initial",
+        "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
+        "max_tension_n": np.maximum(at_a, at_b).ravel(),
+        "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
+        "catenary_m": np.broadcast_to(catenary_m, shape).ravel(),
+    })
+    labels = pd.DataFrame([ruling] + span_rows).loc[np.repeat(np.arange(shape[0]), shape[1])]
+    return pd.concat([frame, labels.reset_index(drop=True)], axis=1)
