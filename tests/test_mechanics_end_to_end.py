@@ -58,7 +58,7 @@ def test_exceeded_limits_are_listed_and_summarised(survey):
     assert (exceeded["percent_rts"] > 20.0).all() and (exceeded["max_percent_rts"] == 20.0).all()
     text = summary_text(result)
     assert "tension limits: 4 checks, 2 exceeded" in text
-    assert "section A:S1 [cold, initial]: 20 % RTS horizontal exceeded" in text
+    assert "section A:S1 wire A [cold, initial]: 20 % RTS horizontal exceeded" in text
     stored = pyogrio.read_dataframe(survey.parent / "out.gpkg", layer="tension_exceedances")
     assert len(stored) == 2
 
