@@ -87,9 +87,11 @@ def test_catenary_converges_to_parabola(span, half_span_angle):
 @given(conductor_states(), finite(0.5, 2.5), temperatures)
 def test_exact_and_parabolic_state_change_agree_for_small_sag(state, load_factor, temperature2):
     # Sag ratios 0.5-4 % and strains below 0.3 %: the models differ only by second-order terms
-    # (catenary vs parabola length, mean tension vs H, 1/(1+e) vs 1-e); 0.13 % worst seen in 5000 draws.
+    # (catenary vs parabola length, mean tension vs H, 1/(1+e) vs 1-e). A strain of ~2.4e-3 (120 C swing)
+    # squared is ~6e-6, about 1 % of the slack (~8 D^2 / 3 S^2 ~ 7e-4) of the tautest spans drawn, so the
+    # tension can differ by up to ~1 % there (0.51 % found by hypothesis); typical draws agree to 0.1 %.
     args = dict(state, weight2_n_m=state["weight1_n_m"] * load_factor, temperature2_c=temperature2)
-    assert_allclose(sc.change_of_state(**args), sc.parabolic_change_of_state(**args), rtol=5e-3)
+    assert_allclose(sc.change_of_state(**args), sc.parabolic_change_of_state(**args), rtol=1e-2)
 
 
 @PROPERTY_SETTINGS
