@@ -22,7 +22,8 @@ ENTRY_POINT_GROUP = "routesag.stages"
 
 # The built-in chain, in a valid order; the runner re-orders by requires/provides anyway.
 DEFAULT_CHAIN = ("read_inputs", "build_spans", "solve_tensions", "build_conductors",
-                 "sample_terrain", "check_clearance", "assemble_layers", "write_geopackage")
+                 "sample_terrain", "read_crossings", "classify_stations", "sample_surface",
+                 "check_clearance", "find_unknowns", "find_hotspots", "assemble_layers", "write_geopackage")
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)
