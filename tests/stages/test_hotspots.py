@@ -13,7 +13,7 @@ def violations(rows, wire=False):
 
 
 def test_single_linkage_chains_neighbours():
-    # 0-8-16 is one chain within 10 m although 0 and 16 are 16 m apart; 40 stands alone; 10.0 m is "within".
+    # 0-8-16 is one chain within 10 m although 0 and 16 are 16 m apart; 40 and 50, exactly 10 m apart, merge.
     labels = cluster_labels([0.0, 8.0, 16.0, 40.0, 50.0], [0.0] * 5, 10.0)
     assert labels[0] == labels[1] == labels[2]
     assert labels[3] == labels[4] != labels[0]
