@@ -222,24 +222,33 @@ def terrain_grid():
     transform : affine.Affine
         Pixel-to-map transform (pixel size ``PIXEL_M``).
     """
-    from rasterio import Affine
-
-    x_m, y_m = structure_xy()
-    snap = 10.0
-    west = np.floor((x_m.min() - TERRAIN_MARGIN_M) / snap) * snap
-    east = np.ceil((x_m.max() + TERRAIN_MARGIN_M) / snap) * snap
-    south = np.floor((y_m.min() - TERRAIN_MARGIN_M) / snap) * snap
-    north = np.ceil((y_m.max() + TERRAIN_MARGIN_M) / snap) * snap
-    cols, rows = int(round((east - west) / PIXEL_M)), int(round((north - south) / PIXEL_M))
-    centre_x = west + PIXEL_M * (np.arange(cols) + 0.5)
-    centre_y = north - PIXEL_M * (np.arange(rows) + 0.5)
-    grid_x, grid_y = np.meshgrid(centre_x, centre_y)
+    grid_x, grid_y, transform = _raster_grid(TERRAIN_MARGIN_M, PIXEL_M)
     heights = np.round(terrain_z(grid_x, grid_y) / HEIGHT_STEP_M) * HEIGHT_STEP_M
     hole_x, hole_y = NODATA_HOLE_XY
     half = NODATA_HOLE_SIZE_M / 2.0
     in_hole = (np.abs(grid_x - hole_x) < half) & (np.abs(grid_y - hole_y) < half)
     heights[in_hole] = NODATA
-    return heights.astype(np.float32), Affine(PIXEL_M, 0.0, west, 0.0, -PIXEL_M, north)
+    return heights.astype(np.float32), transform
+
+
+def _raster_grid(margin_m, pixel_m):
+    """Pixel-centre coordinates and transform of a grid covering the structures with a margin.
+
+    The edges are snapped outward to 10 m; row 0 is to the north.
+    """
+    from rasterio import Affine
+
+    x_m, y_m = structure_xy()
+    snap = 10.0
+    west = np.floor((x_m.min() - margin_m) / snap) * snap
+    east = np.ceil((x_m.max() + margin_m) / snap) * snap
+    south = np.floor((y_m.min() - margin_m) / snap) * snap
+    north = np.ceil((y_m.max() + margin_m) / snap) * snap
+    cols, rows = int(round((east - west) / pixel_m)), int(round((north - south) / pixel_m))
+    centre_x = west + pixel_m * (np.arange(cols) + 0.5)
+    centre_y = north - pixel_m * (np.arange(rows) + 0.5)
+    grid_x, grid_y = np.meshgrid(centre_x, centre_y)
+    return grid_x, grid_y, Affine(pixel_m, 0.0, west, 0.0, -pixel_m, north)
 
 
 def structure_frame():
@@ -461,24 +470,14 @@ def surface_grid():
     transform : affine.Affine
         Pixel-to-map transform (pixel size ``SURFACE_PIXEL_M``).
     """
-    from rasterio import Affine
-
-    x_m, y_m = structure_xy()
-    snap = 10.0
-    west = np.floor((x_m.min() - SURFACE_MARGIN_M) / snap) * snap
-    north = np.ceil((y_m.max() + SURFACE_MARGIN_M) / snap) * snap
-    east = np.ceil((x_m.max() + SURFACE_MARGIN_M) / snap) * snap
-    south = np.floor((y_m.min() - SURFACE_MARGIN_M) / snap) * snap
-    cols, rows = int(round((east - west) / SURFACE_PIXEL_M)), int(round((north - south) / SURFACE_PIXEL_M))
-    grid_x, grid_y = np.meshgrid(west + SURFACE_PIXEL_M * (np.arange(cols) + 0.5),
-                                 north - SURFACE_PIXEL_M * (np.arange(rows) + 0.5))
+    grid_x, grid_y, transform = _raster_grid(SURFACE_MARGIN_M, SURFACE_PIXEL_M)
     top = terrain_z(grid_x, grid_y) + surface_objects_m(grid_x, grid_y)
     heights = np.round(top / HEIGHT_STEP_M) * HEIGHT_STEP_M
     mid = _span_midpoint("T05")
     along = _distance_to_axis(grid_x, grid_y, mid, STREAM_BEARING_DEG + 90.0)
     across = _distance_to_axis(grid_x, grid_y, mid, STREAM_BEARING_DEG)
     heights[(np.abs(across) < STREAM_WIDTH_M / 2.0) & (np.abs(along) < STREAM_LENGTH_M / 2.0)] = NODATA
-    return heights.astype(np.float32), Affine(SURFACE_PIXEL_M, 0.0, west, 0.0, -SURFACE_PIXEL_M, north)
+    return heights.astype(np.float32), transform
 
 
 def write_crossings(path):
