@@ -396,7 +396,8 @@ def _type_problem(value, spec: Key) -> str | None:
 def _kind_name(kind) -> str:
     if kind is NUMBER:
         return "a number"
-    return {str: "text", list: "a list", bool: "true/false", dict: "a table"}.get(kind, getattr(kind, "__name__", str(kind)))
+    names = {str: "text", list: "a list", bool: "true/false", dict: "a table"}
+    return names.get(kind, getattr(kind, "__name__", str(kind)))
 
 
 def _check_stringing(source, stringing: dict, problems) -> None:

@@ -20,7 +20,8 @@ def write_crossings(folder, geometries, **fields):
 
 
 def with_crossings(project, clearance_text=""):
-    text = project.read_text().replace('terrain = "terrain.tif"', 'terrain = "terrain.tif"\ncrossings = "crossings.gpkg"')
+    text = project.read_text().replace('terrain = "terrain.tif"',
+                                       'terrain = "terrain.tif"\ncrossings = "crossings.gpkg"')
     text = text.replace("station_m = 1.0", "station_m = 1.0\n" + clearance_text)
     project.write_text(text)
     return project

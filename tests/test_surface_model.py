@@ -145,3 +145,30 @@ def test_surface_run_reads_one_window_per_span(tmp_path):
     result = routesag.run(project_with_surface(tmp_path, GROUND_Z + tree_height(x, y)))
     assert result.notes["surface_window_reads"] == 1
     assert "above the terrain are objects" in result.notes["surface_rule"]
+
+
+def test_surface_in_a_geographic_crs_is_refused_by_name(tmp_path):
+    x, y = cell_centres()
+    project = project_with_surface(tmp_path, GROUND_Z + tree_height(x, y))
+    with rasterio.open(tmp_path / "surface.tif", "w", driver="GTiff", width=10, height=10, count=1,
+                       dtype="float32", crs="EPSG:4326", transform=from_origin(15.0, 50.6, 1e-4, 1e-4)) as dst:
+        dst.write(np.zeros((1, 10, 10), "float32"))
+    with pytest.raises(routesag.DataError, match=r"surface model .*surface.tif has a geographic CRS"):
+        routesag.run(project)
+
+
+def test_surface_in_another_projected_crs_gives_the_same_distance(tmp_path):
+    # The same cone, sampled at the cell centres of a raster in EPSG:3035 (LAEA Europe).
+    from pyproj import Transformer
+
+    to_laea = Transformer.from_crs(CRS, "EPSG:3035", always_xy=True)
+    x0, y0 = to_laea.transform(ORIGIN[0], ORIGIN[1] + 20.0)
+    rows, cols = np.mgrid[0:400, 0:1300]
+    lx, ly = x0 + (cols + 0.5) * PIXEL, y0 - (rows + 0.5) * PIXEL
+    ux, uy = Transformer.from_crs("EPSG:3035", CRS, always_xy=True).transform(lx, ly)
+    project = project_with_surface(tmp_path, GROUND_Z + tree_height(*cell_centres()))
+    with rasterio.open(tmp_path / "surface.tif", "w", driver="GTiff", width=1300, height=400, count=1,
+                       dtype="float32", crs="EPSG:3035", transform=from_origin(x0, y0, PIXEL, PIXEL)) as dst:
+        dst.write((GROUND_Z + tree_height(ux, uy)).astype("float32"), 1)
+    v = routesag.run(project)["clearance_violations"]
+    assert len(v) == 1 and v["clearance_m"].iloc[0] == pytest.approx(analytic_tree_distance()[0], abs=0.05)

@@ -66,12 +66,12 @@ def merge_hotspots(violations: pd.DataFrame, merge_m: float) -> pd.DataFrame:
         return pd.DataFrame(columns=columns)
     v = violations.reset_index(drop=True).assign(
         group=cluster_labels(violations["x"].to_numpy(float), violations["y"].to_numpy(float), merge_m))
-    worst_first = v.sort_values(["deficit_m", "span_id", "load_case", "station_m"],
-                                ascending=[False, True, True, True], kind="stable")
+    order = [c for c in ("deficit_m", "span_id", "load_case", "station_m") if c in v.columns]
+    worst_first = v.sort_values(order, ascending=[c != "deficit_m" for c in order], kind="stable")
     governing = worst_first.drop_duplicates("group").set_index("group")
     grouped = worst_first.groupby("group")
     lists = {name: grouped[c].agg(lambda s: ", ".join(dict.fromkeys(map(str, s)))) for c, name in listed.items()}
     hotspots = governing.assign(n_violations=grouped.size(), z=governing["conductor_z_m"], **lists)
     hotspots = hotspots.reset_index(drop=True)
     hotspots["rank"] = np.arange(1, len(hotspots) + 1)
-    return hotspots[columns]
+    return hotspots.reindex(columns=columns)

@@ -51,24 +51,20 @@ class SampleSurface(Stage):
         if project.surface_path is None:
             return {"surface": [None] * len(profiles)}
         rules = project.clearance
-        with open_surface(project.surface_path, project.terrain_z_units) as raster:
-            model = SurfaceModel(raster, data["terrain"], data["work_crs"],
-                                 heights=project.surface_values == "height",
-                                 min_height_m=rules.surface_min_height_m,
-                                 required_m=rules.required_m["surface"],
-                                 largest_required_m=max(rules.required_m.values()))
-            result = model.sample(profiles, checked=rules.checks)
-            ctx.notes["surface_rule"] = model.describe()
-            ctx.notes["surface_window_reads"] = raster.sample_window_count
+        try:
+            with TerrainSampler(project.surface_path, z_units=project.terrain_z_units) as raster:
+                model = SurfaceModel(raster, data["terrain"], data["work_crs"],
+                                     heights=project.surface_values == "height",
+                                     min_height_m=rules.surface_min_height_m,
+                                     required_m=rules.required_m["surface"],
+                                     largest_required_m=max(rules.required_m.values()))
+                result = model.sample(profiles, checked=rules.checks)
+                ctx.notes["surface_window_reads"] = raster.sample_window_count
+        except DataError as exc:  # the raster reader names it "terrain"
+            surface = f"surface model {project.surface_path}"
+            raise DataError([p.replace(f"terrain {project.surface_path}", surface) for p in exc.problems]) from None
+        ctx.notes["surface_rule"] = model.describe()
         return {"surface": result}
-
-
-def open_surface(path, z_units) -> TerrainSampler:
-    """Open the surface raster; its errors name it as the surface model."""
-    try:
-        return TerrainSampler(path, z_units=z_units)
-    except DataError as exc:
-        raise DataError([p.replace("terrain ", "surface model ", 1) for p in exc.problems]) from None
 
 
 class SurfaceModel:
