@@ -99,3 +99,18 @@ def test_hotspots_merge_cases_and_rank_by_deficit(survey):
     assert hotspots["deficit_m"].iloc[0] == worst["deficit_m"]
     assert hotspots["load_case"].iloc[0] == worst["load_case"] == "hot"  # the hot wire hangs lowest
     assert hotspots.geometry.has_z.all()
+
+
+def test_empty_new_layers_keep_their_columns(survey):
+    import pyogrio
+
+    routesag.run(survey)  # the fixture line clears everywhere and has no nodata
+    path = survey.parent / "out.gpkg"
+    hotspots = pyogrio.read_info(path, layer="hotspots")
+    assert hotspots["features"] == 0 and hotspots["geometry_type"] == "Point Z"
+    assert {"rank", "deficit_m", "load_case", "category", "n_violations"} <= set(hotspots["fields"])
+    stretches = pyogrio.read_info(path, layer="unknown_stretches")
+    assert stretches["features"] == 0 and stretches["geometry_type"] == "LineString Z"
+    assert {"span_id", "load_case", "start_m", "end_m", "length_m", "reason"} <= set(stretches["fields"])
+    violations = pyogrio.read_info(path, layer="clearance_violations")
+    assert {"category", "surface_x", "surface_y", "surface_z"} <= set(violations["fields"])

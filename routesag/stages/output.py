@@ -22,6 +22,7 @@ VIOLATION_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "load_case", "
                      "conductor_z_m", "ground_z_m", "clearance_m", "required_m", "deficit_m", "category",
                      "surface_x", "surface_y", "surface_z"]
 TEXT_COLUMNS = ("load_case", "category", "reason", "load_cases", "categories", "span_ids", "wire", "wires")
+INTEGER_COLUMNS = ("rank", "n_violations")
 
 
 class AssembleLayers(Stage):
@@ -105,9 +106,13 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
 
 
 def empty_layer(columns, crs) -> gpd.GeoDataFrame:
-    """A layer with no rows that still carries its columns (text or real) and CRS."""
-    empty = pd.DataFrame({c: pd.Series(dtype=str if c.endswith("_id") or c in TEXT_COLUMNS else float)
-                          for c in columns})
+    """A layer with no rows that still carries its columns (text, integer or real) and CRS."""
+    def dtype(column):
+        if column.endswith("_id") or column in TEXT_COLUMNS:
+            return str
+        return "int64" if column in INTEGER_COLUMNS else float
+
+    empty = pd.DataFrame({c: pd.Series(dtype=dtype(c)) for c in columns})
     return gpd.GeoDataFrame(empty, geometry=gpd.GeoSeries([], crs=crs), crs=crs)
 
 
