@@ -22,7 +22,8 @@ ENTRY_POINT_GROUP = "routesag.stages"
 
 # The built-in chain, in a valid order; the runner re-orders by requires/provides anyway.
 DEFAULT_CHAIN = ("read_inputs", "build_spans", "solve_tensions", "compute_structure_loads", "build_conductors",
-                 "sample_terrain", "check_clearance", "check_tension_limits", "build_sag_table",
+                 "sample_terrain", "read_crossings", "classify_stations", "sample_surface", "check_clearance",
+                 "find_unknowns", "find_hotspots", "check_tension_limits", "build_sag_table",
                  "assemble_layers", "write_geopackage")
 
 # Datasets present before any stage runs.

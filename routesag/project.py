@@ -15,6 +15,9 @@ from typing import Any, Callable
 
 from routesag.catalog import PROPERTY_FIELDS, close_matches, find_conductor
 from routesag.errors import ProjectError
+from routesag.physics.clearance_rules import (
+    DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADDER_PER_KV_M, DEFAULT_REQUIRED_M, phase_to_ground_kv, voltage_adder_m,
+)
 
 REQUIRED = object()
 
@@ -27,6 +30,8 @@ class Key:
     default: Any = REQUIRED
     check: Callable[[Any], str | None] | None = None
     doc: str = ""
+    table: dict[str, "Key"] | None = None   # the keys of a nested table ([a.b]); kind is dict
+    other: "Key | None" = None              # spec of any further (user-named) key in that nested table
 
 
 def positive(value):
@@ -43,7 +48,25 @@ def one_of(*choices):
     return check
 
 
+def text_list(value):
+    if not value:
+        return "must name at least one entry"
+    return None if all(isinstance(v, str) and v for v in value) else "must be a list of names (text)"
+
+
 NUMBER = (int, float)
+
+# [clearance.required_m]: the default set plus any user-defined category. "ground" has no default
+# here because `[clearance] ground_m` is its shorthand; see _check_clearance.
+REQUIRED_M_TABLE = {
+    name: Key(NUMBER, None if name == "ground" else value, positive,
+              f"base clearance for {name} before the voltage adder [m]")
+    for name, value in DEFAULT_REQUIRED_M.items()}
+ADDER_TABLE = {
+    "per_kv_m": Key(NUMBER, DEFAULT_ADDER_PER_KV_M, non_negative,
+                    "metres per kV of phase-to-ground voltage above the threshold [m/kV]"),
+    "above_kv": Key(NUMBER, DEFAULT_ADDER_ABOVE_KV, non_negative, "phase-to-ground threshold [kV]"),
+}
 
 SCHEMA: dict[str, dict[str, Key]] = {
     "inputs": {
@@ -52,6 +75,11 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "terrain": Key(str, doc="single-band elevation raster [m]"),
         "crs": Key(str, None, doc="CRS of the structures when the source has none (CSV)"),
         "terrain_z_units": Key(str, "m", one_of("m", "ft", "ftUS"), "vertical unit of the terrain"),
+        "crossings": Key(str, None, doc="crossings layer: lines or polygons with a category field"),
+        "crossings_layer": Key(str, None, doc="layer name inside a multi-layer crossings source"),
+        "surface": Key(str, None, doc="surface model raster: top of vegetation and buildings"),
+        "surface_values": Key(str, "elevation", one_of("elevation", "height"),
+                              "surface raster holds elevations (DSM) or heights above the terrain"),
     },
     "line": {
         "attach_height_m": Key(NUMBER, None, positive,
@@ -115,8 +143,18 @@ SCHEMA: dict[str, dict[str, Key]] = {
                             "case's wind_pa times this area [m2]"),
     },
     "clearance": {
-        "ground_m": Key(NUMBER, check=positive, doc="required vertical clearance to terrain [m]"),
+        "ground_m": Key(NUMBER, None, positive, "shorthand for required_m.ground [m]"),
         "station_m": Key(NUMBER, 1.0, positive, "sampling interval along each span [m]"),
+        "voltage_kv": Key(NUMBER, None, positive, "nominal line-to-line voltage for the adder [kV]"),
+        "max_voltage_kv": Key(NUMBER, None, positive, "maximum operating line-to-line voltage [kV]"),
+        "cases": Key(list, None, text_list, "load cases checked for clearance (default: all)"),
+        "hotspot_merge_m": Key(NUMBER, 10.0, positive, "violations closer than this form one hotspot [m]"),
+        "surface_min_height_m": Key(NUMBER, 0.5, non_negative,
+                                    "surface cells count as objects when this far above the terrain [m]"),
+        "crossing_width_m": Key(NUMBER, 10.0, positive, "width of a line crossing without width_m [m]"),
+        "required_m": Key(dict, {}, doc="base clearances by category", table=REQUIRED_M_TABLE,
+                          other=Key(NUMBER, check=positive, doc="base clearance of a user category [m]")),
+        "adder": Key(dict, {}, doc="voltage adder", table=ADDER_TABLE),
     },
     "output": {
         "path": Key(str, "results.gpkg", doc="GeoPackage to write"),
@@ -227,6 +265,46 @@ class Wire:
     insulated: bool = True
 
 
+@dataclass(frozen=True)
+class ClearanceRules:
+    """Required clearances by category, the voltage adder and the clearance options.
+
+    ``base_m`` holds the values before the adder; :attr:`required_m` after it.
+    """
+
+    base_m: dict = field(default_factory=lambda: dict(DEFAULT_REQUIRED_M))
+    voltage_kv: float | None = None
+    max_voltage_kv: float | None = None
+    adder_per_kv_m: float = DEFAULT_ADDER_PER_KV_M
+    adder_above_kv: float = DEFAULT_ADDER_ABOVE_KV
+    cases: tuple[str, ...] | None = None
+    hotspot_merge_m: float = 10.0
+    surface_min_height_m: float = 0.5
+    crossing_width_m: float = 10.0
+
+    @property
+    def phase_to_ground_kv(self) -> float | None:
+        if self.voltage_kv is None:
+            return None
+        return float(phase_to_ground_kv(self.voltage_kv, self.max_voltage_kv))
+
+    @property
+    def adder_m(self) -> float:
+        """Clearance added to every base value for the voltage [m] (0 without a voltage)."""
+        if self.voltage_kv is None:
+            return 0.0
+        return float(voltage_adder_m(self.phase_to_ground_kv, self.adder_per_kv_m, self.adder_above_kv))
+
+    @property
+    def required_m(self) -> dict[str, float]:
+        """Required clearance by category after the adder [m]."""
+        return {name: base + self.adder_m for name, base in self.base_m.items()}
+
+    def checks(self, load_case: str) -> bool:
+        """Whether a load case is checked for clearance."""
+        return self.cases is None or load_case in self.cases
+
+
 @dataclass
 class Project:
     """A validated project: every setting in SI units, paths resolved."""
@@ -251,6 +329,11 @@ class Project:
     insulator_weight_n: float = 0.0
     insulator_wind_area_m2: float = 0.0
     limits: list[TensionLimit] = field(default_factory=list)
+    crossings_path: Path | None = None
+    crossings_layer: str | None = None
+    surface_path: Path | None = None
+    surface_values: str = "elevation"
+    clearance: ClearanceRules = field(default_factory=ClearanceRules)
 
     @property
     def base_dir(self) -> Path:
@@ -264,8 +347,9 @@ class Project:
 
     def input_paths(self) -> dict[str, Path]:
         """Every input file by role, for provenance."""
-        return {"project": self.path, "structures": self.structures_path,
-                "terrain": self.terrain_path}
+        paths = {"project": self.path, "structures": self.structures_path, "terrain": self.terrain_path,
+                 "crossings": self.crossings_path, "surface": self.surface_path}
+        return {role: path for role, path in paths.items() if path is not None}
 
 
 def load_project(path, output=None) -> Project:
@@ -332,6 +416,7 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
     _check_wires(source, settings.get("wires", []), problems)
     _set_conditions(source, settings, problems)
     _check_limits(source, settings, problems)
+    _check_clearance(source, raw.get("clearance"), settings, problems)
     return settings, problems
 
 
@@ -352,31 +437,33 @@ def _check_array_table(source, table, given, keys, problems):
     return entries
 
 
-def _check_table(source, label, given: dict, keys: dict[str, Key], problems) -> dict:
-    return _check_keys(f"{source}: {label}", given, keys, problems)
+def _check_table(source, label, given: dict, keys: dict[str, Key], problems, other: Key | None = None) -> dict:
+    return _check_keys(f"{source}: {label}", given, keys, problems, other)
 
 
-def _check_keys(where: str, given: dict, keys: dict[str, Key], problems) -> dict:
-    """Check one table's keys; ``where`` (file and table) starts every message."""
+def _check_keys(where: str, given: dict, keys: dict[str, Key], problems, other: Key | None = None) -> dict:
+    """Check one table's keys; ``where`` (file and table) starts every message.
+
+    ``other``, when given, checks every key not in ``keys`` (user-named keys,
+    such as clearance categories) instead of reporting it as unknown.
+    """
     out = {}
     for key in given:
-        if key not in keys:
+        if key not in keys and other is None:
             problems.append(f"{where}: unknown key {key!r}{_suggest(key, keys)}")
     for key, spec in keys.items():
-        if key not in given:
-            if spec.default is REQUIRED:
-                problems.append(f"{where}: missing key {key!r} ({spec.doc or spec.kind.__name__})")
-            else:
-                out[key] = spec.default
-            continue
-        value = given[key]
-        message = _type_problem(value, spec)
-        if message is None and spec.check is not None:
-            message = spec.check(value)
-        if message:
-            problems.append(f"{where}: {key} = {value!r} {message}")
+        if spec.table is not None:
+            out[key] = _check_subtable(where, key, given.get(key, {}), spec, problems)
+        elif key in given:
+            _check_value(where, key, given[key], spec, problems, out)
+        elif spec.default is REQUIRED:
+            problems.append(f"{where}: missing key {key!r} ({spec.doc or spec.kind.__name__})")
         else:
-            out[key] = float(value) if spec.kind is NUMBER else value
+            out[key] = spec.default
+    if other is not None:
+        for key in given:
+            if key not in keys:
+                _check_value(where, key, given[key], other, problems, out)
     return out
 
 
@@ -444,6 +531,25 @@ def _conductor_from(c: dict) -> Conductor:
         source=c.get("source", "project file"))
 
 
+def _check_subtable(where: str, key, value, spec: Key, problems) -> dict:
+    """A nested table such as [clearance.required_m]: its own keys, and optionally user-named ones."""
+    sub_where = f"{where[:-1]}.{key}]" if where.endswith("]") else f"{where}.{key}"
+    if not isinstance(value, dict):
+        problems.append(f"{where}: {key} must be a table ({sub_where.rsplit(': ', 1)[-1]})")
+        value = {}
+    return _check_keys(sub_where, value, spec.table, problems, spec.other)
+
+
+def _check_value(where: str, key, value, spec: Key, problems, out: dict) -> None:
+    message = _type_problem(value, spec)
+    if message is None and spec.check is not None:
+        message = spec.check(value)
+    if message:
+        problems.append(f"{where}: {key} = {value!r} {message}")
+    else:
+        out[key] = float(value) if spec.kind is NUMBER else value
+
+
 def _type_problem(value, spec: Key) -> str | None:
     kinds = spec.kind if isinstance(spec.kind, tuple) else (spec.kind,)
     if isinstance(value, bool) and bool not in kinds:
@@ -458,7 +564,8 @@ def _type_problem(value, spec: Key) -> str | None:
 def _kind_name(kind) -> str:
     if kind is NUMBER:
         return "a number"
-    return {str: "text", list: "a list", bool: "true/false"}.get(kind, getattr(kind, "__name__", str(kind)))
+    names = {str: "text", list: "a list", bool: "true/false", dict: "a table"}
+    return names.get(kind, getattr(kind, "__name__", str(kind)))
 
 
 def _check_stringing(source, stringing: dict, problems, label="[stringing]") -> None:
@@ -523,6 +630,33 @@ def _check_wires(source, wires: list[dict], problems) -> None:
 
 
 
+def _check_clearance(source, raw, settings, problems) -> None:
+    """Cross-checks of [clearance]: ground_m vs required_m.ground, voltages, load case names.
+
+    Fills ``required_m.ground`` with the effective base ground clearance.
+    """
+    clearance = settings.get("clearance", {})
+    required = clearance.get("required_m")
+    if required is None:
+        return
+    given_required = (raw or {}).get("required_m")
+    if clearance.get("ground_m") is not None and isinstance(given_required, dict) and "ground" in given_required:
+        problems.append(f"{source}: [clearance]: give ground_m or [clearance.required_m] ground, not both")
+    if required.get("ground") is None:
+        ground = clearance.get("ground_m")
+        required["ground"] = DEFAULT_REQUIRED_M["ground"] if ground is None else ground
+    voltage, maximum = clearance.get("voltage_kv"), clearance.get("max_voltage_kv")
+    if maximum is not None and voltage is None:
+        problems.append(f"{source}: [clearance]: max_voltage_kv needs voltage_kv (the nominal voltage)")
+    elif maximum is not None and maximum < voltage:
+        problems.append(f"{source}: [clearance]: max_voltage_kv = {maximum:g} is below voltage_kv = {voltage:g}")
+    names = [case.get("name") for case in settings.get("load_cases", [])]
+    for name in clearance.get("cases") or []:
+        if names and name not in names:
+            problems.append(f"{source}: [clearance]: cases names {name!r}, which is not a load case"
+                            f"{_suggest(name, names)}")
+
+
 def _suggest(word: str, valid) -> str:
     close = difflib.get_close_matches(word, list(valid), n=1, cutoff=0.5)
     return f"; did you mean {close[0]!r}?" if close else f"; valid: {', '.join(valid)}"
@@ -537,18 +671,23 @@ def _build_project(path: Path, s: dict, output) -> Project:
                            condition=e["condition"])
                   for e in s["load_cases"]]
     out = Path(output) if output is not None else base / s["output"]["path"]
+    inputs = s["inputs"]
     return Project(
         path=path.resolve(), structures_path=(base / s["inputs"]["structures"]).resolve(),
         structures_layer=s["inputs"]["structures_layer"], terrain_path=(base / s["inputs"]["terrain"]).resolve(),
         structures_crs=s["inputs"]["crs"], terrain_z_units=s["inputs"]["terrain_z_units"],
         attach_height_m=s["line"]["attach_height_m"], conductor=conductor,
         stringing=stringing, load_cases=load_cases,
-        ground_clearance_m=s["clearance"]["ground_m"], station_m=s["clearance"]["station_m"],
+        ground_clearance_m=s["clearance"]["required_m"]["ground"], station_m=s["clearance"]["station_m"],
         ice_density_kg_m3=s["loads"]["ice_density_kg_m3"], output_path=out.resolve(),
         pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
         wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],
         insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"],
-        limits=[TensionLimit(**e) for e in s["limits"]])
+        limits=[TensionLimit(**e) for e in s["limits"]],
+        crossings_path=None if inputs["crossings"] is None else (base / inputs["crossings"]).resolve(),
+        crossings_layer=inputs["crossings_layer"],
+        surface_path=None if inputs["surface"] is None else (base / inputs["surface"]).resolve(),
+        surface_values=inputs["surface_values"], clearance=_clearance_rules(s["clearance"]))
 
 
 def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, stringing: Stringing) -> Wire:
@@ -559,3 +698,11 @@ def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, strin
         conductor=conductor if own is None else resolve_conductor(own, f"{path}: {_wire_label(index, entry)} "
                                                                         "conductor"),
         stringing=stringing if entry["stringing"] is None else Stringing(**entry["stringing"]))
+
+
+def _clearance_rules(c: dict) -> ClearanceRules:
+    return ClearanceRules(
+        base_m=dict(c["required_m"]), voltage_kv=c["voltage_kv"], max_voltage_kv=c["max_voltage_kv"],
+        adder_per_kv_m=c["adder"]["per_kv_m"], adder_above_kv=c["adder"]["above_kv"],
+        cases=None if c["cases"] is None else tuple(c["cases"]), hotspot_merge_m=c["hotspot_merge_m"],
+        surface_min_height_m=c["surface_min_height_m"], crossing_width_m=c["crossing_width_m"])

@@ -21,27 +21,55 @@ def summary_text(result, per_span: bool = False) -> str:
     lines.append("worst clearance per load case:")
     for case, group in conductors.groupby("load_case", sort=False):
         row = group.loc[group["min_clearance_m"].idxmin()] if group["min_clearance_m"].notna().any() else None
+        required = "not checked" if (group["status"] == "unchecked").all() else (
+            f"required {row['required_m']:.2f} m" if row is not None else "")
         where = (f"span {row['span_id']}{_wire(row)} at {row['min_clearance_station_m']:.0f} m "
-                 f"(required {row['required_m']:.2f} m)") if row is not None else "no terrain"
+                 f"({required})") if row is not None else "no terrain"
         worst = _fmt(row["min_clearance_m"]) if row is not None else "unknown"
         lines.append(f"  {case:<12} {worst:>8} m  {where}")
     if per_span:
         lines.extend(_span_table(conductors))
     lines.append(f"violations: {len(violations)}")
     for _, v in violations.sort_values("deficit_m", ascending=False).iterrows():
-        lines.append(f"  span {v['span_id']}{_wire(v)} [{v['load_case']}] at {v['station_m']:.0f} m "
+        lines.append(f"  span {v['span_id']}{_wire(v)} [{v['load_case']}] {v.get('category', 'ground')} "
+                     f"at {v['station_m']:.0f} m "
                      f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {v['clearance_m']:.2f} m < "
                      f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
                      f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    lines.extend(_hotspot_lines(layers.get("hotspots")))
     lines.extend(_uplift_lines(layers.get("structure_loads")))
     lines.extend(_tension_lines(result))
-    unknown = conductors["unknown_m"].sum()
-    if unknown > 0:
-        lines.append(f"UNKNOWN: {unknown:.0f} m of conductor over missing terrain (not checked, not clear)")
+    lines.extend(_unknown_lines(layers.get("unknown_stretches"), conductors))
     for message in result.warnings:
         lines.append(f"warning: {message}")
     lines.append(f"CAUTION: {CAUTION}")
     return "\n".join(lines)
+
+
+def _hotspot_lines(hotspots, top=10) -> list[str]:
+    """The worst hotspots, one line each."""
+    if hotspots is None or len(hotspots) == 0:
+        return []
+    lines = [f"hotspots: {len(hotspots)} (violations merged within the hotspot distance; top {top}, worst first)"]
+    for _, h in hotspots.sort_values("rank").head(top).iterrows():
+        wire = f" wire {h['wire']}" if "wire" in h and isinstance(h["wire"], str) else ""
+        lines.append(f"  #{h['rank']} short by {h['deficit_m']:.2f} m: {h['category']} [{h['load_case']}]{wire} "
+                     f"span {h['span_id']} at {h['station_m']:.0f} m, {h['n_violations']} violation(s) "
+                     f"({h['load_cases']}) at x={h.geometry.x:.1f} y={h.geometry.y:.1f}")
+    return lines
+
+
+def _unknown_lines(stretches, conductors) -> list[str]:
+    """Total length whose clearance is unknown (over terrain or surface nodata)."""
+    if stretches is None:
+        total, count, why = conductors["unknown_m"].sum(), None, "terrain"
+    else:
+        total, count = stretches["length_m"].sum() if len(stretches) else 0.0, len(stretches)
+        why = " or ".join(sorted({r for reasons in stretches.get("reason", []) for r in reasons.split(", ")}))
+    if not total > 0:
+        return []
+    where = f" in {count} stretches" if count is not None else ""
+    return [f"UNKNOWN: {total:.0f} m of conductor{where} over missing {why} data (not checked, not clear)"]
 
 
 def _span_table(conductors) -> list[str]:

@@ -273,24 +273,33 @@ def terrain_grid():
     transform : affine.Affine
         Pixel-to-map transform (pixel size ``PIXEL_M``).
     """
-    from rasterio import Affine
-
-    x_m, y_m = structure_xy()
-    snap = 10.0
-    west = np.floor((x_m.min() - TERRAIN_MARGIN_M) / snap) * snap
-    east = np.ceil((x_m.max() + TERRAIN_MARGIN_M) / snap) * snap
-    south = np.floor((y_m.min() - TERRAIN_MARGIN_M) / snap) * snap
-    north = np.ceil((y_m.max() + TERRAIN_MARGIN_M) / snap) * snap
-    cols, rows = int(round((east - west) / PIXEL_M)), int(round((north - south) / PIXEL_M))
-    centre_x = west + PIXEL_M * (np.arange(cols) + 0.5)
-    centre_y = north - PIXEL_M * (np.arange(rows) + 0.5)
-    grid_x, grid_y = np.meshgrid(centre_x, centre_y)
+    grid_x, grid_y, transform = _raster_grid(TERRAIN_MARGIN_M, PIXEL_M)
     heights = np.round(terrain_z(grid_x, grid_y) / HEIGHT_STEP_M) * HEIGHT_STEP_M
     hole_x, hole_y = NODATA_HOLE_XY
     half = NODATA_HOLE_SIZE_M / 2.0
     in_hole = (np.abs(grid_x - hole_x) < half) & (np.abs(grid_y - hole_y) < half)
     heights[in_hole] = NODATA
-    return heights.astype(np.float32), Affine(PIXEL_M, 0.0, west, 0.0, -PIXEL_M, north)
+    return heights.astype(np.float32), transform
+
+
+def _raster_grid(margin_m, pixel_m):
+    """Pixel-centre coordinates and transform of a grid covering the structures with a margin.
+
+    The edges are snapped outward to 10 m; row 0 is to the north.
+    """
+    from rasterio import Affine
+
+    x_m, y_m = structure_xy()
+    snap = 10.0
+    west = np.floor((x_m.min() - margin_m) / snap) * snap
+    east = np.ceil((x_m.max() + margin_m) / snap) * snap
+    south = np.floor((y_m.min() - margin_m) / snap) * snap
+    north = np.ceil((y_m.max() + margin_m) / snap) * snap
+    cols, rows = int(round((east - west) / pixel_m)), int(round((north - south) / pixel_m))
+    centre_x = west + pixel_m * (np.arange(cols) + 0.5)
+    centre_y = north - pixel_m * (np.arange(rows) + 0.5)
+    grid_x, grid_y = np.meshgrid(centre_x, centre_y)
+    return grid_x, grid_y, Affine(pixel_m, 0.0, west, 0.0, -pixel_m, north)
 
 
 def structure_frame():
@@ -332,9 +341,13 @@ def write_structures(path):
 
 def write_terrain(path):
     """Write the terrain as a tiled, DEFLATE-compressed float32 GeoTIFF at ``path``."""
+    _write_float_raster(path, *terrain_grid())
+
+
+def _write_float_raster(path, heights, transform):
+    """Tiled float32 GeoTIFF, DEFLATE with the floating-point predictor, nodata ``NODATA``."""
     import rasterio
 
-    heights, transform = terrain_grid()
     profile = {
         "driver": "GTiff", "dtype": "float32", "count": 1, "crs": CRS,
         "width": heights.shape[1], "height": heights.shape[0], "transform": transform,
@@ -347,11 +360,11 @@ def write_terrain(path):
 
 def write_project(path):
     """Write the demo project file (paths relative to its folder) at ``path``."""
-    Path(path).write_text(PROJECT_TOML, encoding="utf-8")
+    Path(path).write_text(project_text(), encoding="utf-8")
 
 
 def write_sample_survey(folder):
-    """Write structures.gpkg, terrain.tif and project.toml into ``folder``.
+    """Write structures.gpkg, terrain.tif, crossings.gpkg, surface.tif and project.toml into ``folder``.
 
     Existing files of those names are replaced; other files are left alone.
 
@@ -372,5 +385,180 @@ def write_sample_survey(folder):
         structures.unlink()  # the GPKG driver would otherwise add to the old file
     write_structures(structures)
     write_terrain(folder / TERRAIN_FILE)
+    write_clearance_inputs(folder)
     write_project(folder / PROJECT_FILE)
     return folder / PROJECT_FILE
+
+
+# ---------------------------------------------------------------- clearance inputs: crossings and surface model
+# Kept apart from the structures and terrain above. The story they add:
+# - a minor road crosses span T11-T12 on the knoll's eastern flank, where the
+#   hot wire clears the ground rule (7.5 m) but not the road rule (8.5 m);
+# - the stream under span T05-T06 is a water crossing, and the surface model
+#   has no data over it (open water returns no laser echo), so that stretch
+#   is unknown rather than clear;
+# - a railway crosses span T12-T13 with room to spare;
+# - a row of trees grown up beside span T14-T15 comes within 4 m of the hot
+#   wire; other tree stands and a barn stand well away from the line.
+
+CROSSINGS_FILE = "crossings.gpkg"
+CROSSINGS_LAYER = "crossings"
+SURFACE_FILE = "surface.tif"
+SURFACE_PIXEL_M = 1.0
+SURFACE_MARGIN_M = 60.0  # around the structures; more than any search radius of the demo
+STREAM_WIDTH_M = 6.0
+
+# The invented operator's clearance table [m], before any voltage adder.
+CLEARANCE_TABLES_TOML = """\
+[clearance.required_m]             # the operator's rule table; ground comes from ground_m above
+road = 8.5
+railway = 9.5
+water = 7.0
+surface = 4.0                      # 3D distance to trees and buildings in the surface model
+
+[clearance.adder]                  # used only when voltage_kv is set
+per_kv_m = 0.01
+above_kv = 22.0
+
+"""
+CLEARANCE_INPUTS_TOML = """\
+crossings = "crossings.gpkg"
+crossings_layer = "crossings"
+surface = "surface.tif"
+"""
+CLEARANCE_KEYS_TOML = """\
+hotspot_merge_m = 10.0
+surface_min_height_m = 0.5
+# voltage_kv = 132.0               # nominal; would add 10 mm per kV above 22 kV to ground to every value
+# max_voltage_kv = 145.0
+"""
+
+# Trees: (span's back structure, station [m], offset to the left of the line [m], crown height [m],
+# crown radius [m]). Crowns are paraboloids on the terrain.
+TREES = (
+    # The row beside T14-T15 that has grown into the hot wire's clearance.
+    *(("T14", station, 3.5, height, 3.0)
+      for station, height in zip((119.0, 127.0, 135.0, 143.0, 151.0), (10.2, 10.6, 10.9, 10.4, 10.0))),
+    # A copse well to the right of T03-T04.
+    *(("T03", station, -26.0 - 3.0 * (i % 2), 15.0 + (i % 3), 4.0)
+      for i, station in enumerate((110.0, 120.0, 130.0, 140.0, 150.0, 160.0))),
+    # An orchard to the left of T09-T10.
+    *(("T09", station, 35.0 + offset, 7.0, 2.5) for station in (80.0, 90.0, 100.0) for offset in (0.0, 8.0)),
+)
+# Barn: (back structure, station [m], left offset [m], length along the line, width [m], roof height [m]).
+BUILDING = ("T06", 100.0, -30.0, 24.0, 14.0, 9.0)
+# Road: axis through (back structure, station) at this grid bearing, width, length [m].
+ROAD = ("T11", 212.0, 10.0, 12.0, 160.0)
+# Railway: axis through (back structure, station) at this grid bearing, length [m]; width from the project.
+RAILWAY = ("T12", 100.0, 20.0, 400.0)
+STREAM_BEARING_DEG, STREAM_LENGTH_M = 170.0, 500.0
+
+
+def _beside_span(back_id, station_m, left_m=0.0):
+    """Plan point at a station of the span starting at ``back_id``, offset to the left of it [m]."""
+    x_m, y_m = structure_xy()
+    i = _index(back_id)
+    dx, dy = x_m[i + 1] - x_m[i], y_m[i + 1] - y_m[i]
+    length = np.hypot(dx, dy)
+    ux, uy = dx / length, dy / length
+    return x_m[i] + station_m * ux - left_m * uy, y_m[i] + station_m * uy + left_m * ux
+
+
+def _axis(through_xy, bearing_deg, length_m):
+    """Straight line of a given length centred on a point, at a grid bearing."""
+    import shapely
+
+    b = np.radians(bearing_deg)
+    half = length_m / 2.0 * np.array([np.sin(b), np.cos(b)])
+    centre = np.asarray(through_xy, dtype=float)
+    return shapely.LineString([centre - half, centre + half])
+
+
+def crossings_frame():
+    """Road (polygon), stream (line, 6 m wide) and railway (line, default width) crossings.
+
+    Returns
+    -------
+    geopandas.GeoDataFrame
+        Columns category, required_m (NULL: the project's table applies) and
+        width_m [m] (lines only).
+    """
+    import geopandas as gpd
+
+    back, station, bearing, width, length = ROAD
+    road = _axis(_beside_span(back, station), bearing, length).buffer(width / 2.0, cap_style="flat")
+    stream = _axis(_span_midpoint("T05"), STREAM_BEARING_DEG, STREAM_LENGTH_M)
+    back, station, bearing, length = RAILWAY
+    railway = _axis(_beside_span(back, station), bearing, length)
+    return gpd.GeoDataFrame(
+        {"category": ["road", "water", "railway"], "required_m": [np.nan] * 3,
+         "width_m": [np.nan, STREAM_WIDTH_M, np.nan]},
+        geometry=[road, stream, railway], crs=CRS)
+
+
+def surface_objects_m(x_m, y_m):
+    """Height of trees and the barn above the terrain at points [m] (0 where there is none)."""
+    height = np.zeros(np.shape(x_m))
+    for back, station, left, crown_m, radius_m in TREES:
+        cx, cy = _beside_span(back, station, left)
+        rho2 = ((x_m - cx) ** 2 + (y_m - cy) ** 2) / radius_m**2
+        height = np.maximum(height, crown_m * np.clip(1.0 - rho2, 0.0, None))
+    back, station, left, length_m, width_m, roof_m = BUILDING
+    cx, cy = _beside_span(back, station, left)
+    along = np.radians(BEARINGS_DEG[0])  # the barn is aligned with the first leg
+    u = (x_m - cx) * np.sin(along) + (y_m - cy) * np.cos(along)
+    v = (x_m - cx) * np.cos(along) - (y_m - cy) * np.sin(along)
+    inside = (np.abs(u) <= length_m / 2.0) & (np.abs(v) <= width_m / 2.0)
+    return np.where(inside, np.maximum(height, roof_m), height)
+
+
+def surface_grid():
+    """Surface model (terrain + trees + barn) around the line, nodata over the stream.
+
+    Returns
+    -------
+    heights_m : numpy.ndarray
+        float32 elevations of the top surface, row 0 to the north [m];
+        ``NODATA`` over the stream.
+    transform : affine.Affine
+        Pixel-to-map transform (pixel size ``SURFACE_PIXEL_M``).
+    """
+    grid_x, grid_y, transform = _raster_grid(SURFACE_MARGIN_M, SURFACE_PIXEL_M)
+    top = terrain_z(grid_x, grid_y) + surface_objects_m(grid_x, grid_y)
+    heights = np.round(top / HEIGHT_STEP_M) * HEIGHT_STEP_M
+    mid = _span_midpoint("T05")
+    along = _distance_to_axis(grid_x, grid_y, mid, STREAM_BEARING_DEG + 90.0)
+    across = _distance_to_axis(grid_x, grid_y, mid, STREAM_BEARING_DEG)
+    heights[(np.abs(across) < STREAM_WIDTH_M / 2.0) & (np.abs(along) < STREAM_LENGTH_M / 2.0)] = NODATA
+    return heights.astype(np.float32), transform
+
+
+def write_crossings(path):
+    """Write the crossings layer to a GeoPackage at ``path``."""
+    crossings_frame().to_file(path, layer=CROSSINGS_LAYER, driver="GPKG", engine="pyogrio")
+
+
+def write_surface(path):
+    """Write the surface model as a tiled, DEFLATE-compressed float32 GeoTIFF at ``path``."""
+    _write_float_raster(path, *surface_grid())
+
+
+def project_text():
+    """The demo project: the base project plus the crossings, surface model and clearance tables."""
+    text = PROJECT_TOML
+    for anchor, added in (('terrain = "terrain.tif"\n', CLEARANCE_INPUTS_TOML),
+                          ("station_m = 1.0\n", CLEARANCE_KEYS_TOML)):
+        assert anchor in text, f"project text has no {anchor!r} to extend"
+        text = text.replace(anchor, anchor + added, 1)
+    assert "[output]" in text
+    return text.replace("[output]", CLEARANCE_TABLES_TOML + "[output]", 1)
+
+
+def write_clearance_inputs(folder):
+    """Write crossings.gpkg and surface.tif into ``folder`` (replacing earlier ones)."""
+    folder = Path(folder)
+    crossings = folder / CROSSINGS_FILE
+    if crossings.exists():
+        crossings.unlink()  # the GPKG driver would otherwise add to the old file
+    write_crossings(crossings)
+    write_surface(folder / SURFACE_FILE)

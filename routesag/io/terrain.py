@@ -165,6 +165,12 @@ class TerrainSampler:
         return self._ds.res
 
     @property
+    def cell_size_m(self):
+        """(x, y) pixel size in metres [m]; DataError for a geographic CRS."""
+        factor = self._metres_per_horizontal_unit()
+        return self._ds.res[0] * factor, self._ds.res[1] * factor
+
+    @property
     def nodata(self):
         """Nodata value of the band, or None."""
         return self._ds.nodata
@@ -216,7 +222,7 @@ class TerrainSampler:
         xr, yr = self._to_raster_xy(x, y, crs)
         return self._inside(*self._pixel_coords(xr, yr))
 
-    def read_window_points(self, x, y, radius_m, crs=None):
+    def read_window_points(self, x, y, radius_m, crs=None, keep_nodata=False):
         """Every valid cell centre in the box around points, in one window read.
 
         Parameters
@@ -228,13 +234,17 @@ class TerrainSampler:
             the raster's horizontal unit.
         crs : anything pyproj.CRS accepts, optional
             CRS of ``x, y``; default the raster CRS.
+        keep_nodata : bool, default False
+            Also return nodata cells, with ``zs`` NaN (to tell where the
+            raster has no data rather than nothing there).
 
         Returns
         -------
         xs, ys : numpy.ndarray of float64
             Cell centres in the raster CRS [raster CRS units].
         zs : numpy.ndarray of float64
-            Elevations at those centres [m]. Nodata cells are left out.
+            Elevations at those centres [m]. Nodata cells are left out
+            unless ``keep_nodata``.
 
         Raises
         ------
@@ -254,8 +264,9 @@ class TerrainSampler:
             return empty
         z = self._read(window)
         xs, ys = self._cell_centres(window)
-        keep = (np.isfinite(z) & (xs >= box[0]) & (xs <= box[2])
-                & (ys >= box[1]) & (ys <= box[3]))
+        keep = ((xs >= box[0]) & (xs <= box[2]) & (ys >= box[1]) & (ys <= box[3]))
+        if not keep_nodata:
+            keep &= np.isfinite(z)
         return xs[keep], ys[keep], z[keep]
 
     # -- coordinates ------------------------------------------------------------------

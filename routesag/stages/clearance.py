@@ -1,4 +1,10 @@
-"""Stage: clearance of every station, violations and unknown stretches."""
+"""Stage: clearance of every station against its required value; one violation per stretch.
+
+Two checks per station of every checked load case: the vertical clearance to
+the terrain against the required value of the station's category (ground or
+the crossing it lies in), and the 3D distance to the surface model (when one
+is given) against the ``surface`` value.
+"""
 from __future__ import annotations
 
 import numpy as np
@@ -9,24 +15,59 @@ from routesag.pipeline import Stage
 
 class CheckClearance(Stage):
     name = "check_clearance"
-    requires = ("project", "conductors", "ground")
+    requires = ("project", "conductors", "ground", "station_rules", "surface")
     provides = ("clearance", "violations")
-    description = "vertical clearance per station against the required value; one violation per stretch"
+    description = ("vertical clearance per station against its category's required value, 3D distance to the "
+                   "surface model; one violation per stretch")
 
     def run(self, data, ctx):
-        required_m = data["project"].ground_clearance_m
+        rules = data["project"].clearance
+        record_rules(rules, ctx)
         summaries, violations = [], []
-        for profile, ground in zip(data["conductors"], data["ground"]):
+        for profile, ground, (required, category), surface in zip(
+                data["conductors"], data["ground"], data["station_rules"], data["surface"]):
             clearance = profile.xyz[:, 2] - ground
-            summaries.append(summarise(profile, clearance, required_m))
-            violations.extend(find_violations(profile, ground, clearance, required_m))
+            if not rules.checks(profile.load_case):
+                summaries.append(summarise(profile, clearance, np.nan, status="unchecked"))
+                continue
+            found = find_violations(profile, ground, clearance, required, category)
+            unknown = np.isnan(clearance)
+            near = []
+            if surface is not None:
+                near = find_surface_violations(profile, ground, surface, rules.required_m["surface"])
+                unknown = unknown | surface.unknown
+            summaries.append(summarise(profile, clearance, required, unknown, bool(near), surface))
+            violations.extend(found + near)
         return {"clearance": pd.DataFrame(summaries), "violations": pd.DataFrame(violations)}
+
+
+def record_rules(rules, ctx) -> None:
+    """Required values after the adder, and how the adder was found, for run_info."""
+    ctx.notes["clearance_required_m"] = {name: round(value, 4) for name, value in rules.required_m.items()}
+    ctx.notes["clearance_adder"] = {
+        "voltage_kv": rules.voltage_kv, "max_voltage_kv": rules.max_voltage_kv,
+        "phase_to_ground_kv": None if rules.voltage_kv is None else round(rules.phase_to_ground_kv, 3),
+        "per_kv_m": rules.adder_per_kv_m, "above_kv": rules.adder_above_kv, "adder_m": round(rules.adder_m, 4)}
+    ctx.notes["clearance_cases"] = "all" if rules.cases is None else list(rules.cases)
+
+
+def profile_identity(profile) -> dict:
+    """Columns that name a profile: span, load case and, when the profile has one, the wire."""
+    identity = {"span_id": profile.span_id, "load_case": profile.load_case}
+    wire = getattr(profile, "wire", None)
+    if wire is not None:
+        identity["wire"] = wire
+    return identity
+
+
+def station_edges(stations_m: np.ndarray) -> np.ndarray:
+    """Where each station's share of the wire begins and ends: the span ends and the mid-points between [m]."""
+    return np.concatenate([[stations_m[0]], (stations_m[1:] + stations_m[:-1]) / 2.0, [stations_m[-1]]])
 
 
 def station_lengths(stations_m: np.ndarray) -> np.ndarray:
     """Length of conductor (horizontal) each station stands for: half the gap to each neighbour [m]."""
-    edges = np.concatenate([[stations_m[0]], (stations_m[1:] + stations_m[:-1]) / 2.0, [stations_m[-1]]])
-    return np.diff(edges)
+    return np.diff(station_edges(stations_m))
 
 
 def runs(mask: np.ndarray) -> list[tuple[int, int]]:
@@ -36,39 +77,88 @@ def runs(mask: np.ndarray) -> list[tuple[int, int]]:
     return [(int(a), int(b) - 1) for a, b in zip(change[::2], change[1::2])]
 
 
-def summarise(profile, clearance: np.ndarray, required_m: float) -> dict:
-    """Worst clearance and unknown length of one profile. Unknown stations never count as clear."""
+def summarise(profile, clearance: np.ndarray, required_m, unknown=None, surface_violation=False,
+              surface=None, status=None) -> dict:
+    """Worst clearance, unknown length and status of one profile. Unknown stations never count as clear.
+
+    ``required_m`` is a value or one per station; the row's ``required_m`` is the one at the worst
+    station. ``unknown`` (default: NaN clearance) marks stations whose check is incomplete.
+    """
+    required = np.broadcast_to(np.asarray(required_m, dtype=float), clearance.shape)
+    unknown = np.isnan(clearance) if unknown is None else unknown
     known = ~np.isnan(clearance)
-    unknown_m = float(station_lengths(profile.stations_m)[~known].sum())
+    unknown_m = float(station_lengths(profile.stations_m)[unknown].sum())
     if known.any():
         worst = int(np.nanargmin(clearance))
-        min_clearance, at = float(clearance[worst]), float(profile.stations_m[worst])
+        min_clearance, at, required_at = float(clearance[worst]), float(profile.stations_m[worst]), required[worst]
     else:
         min_clearance = at = float("nan")
-    if known.any() and min_clearance < required_m:
-        status = "violation"
-    elif not known.all():
-        status = "unknown"
-    else:
-        status = "clear"
-    return {"span_id": profile.span_id, "wire": profile.wire, "load_case": profile.load_case,
-            "min_clearance_m": min_clearance,
-            "min_clearance_station_m": at, "unknown_m": unknown_m, "required_m": required_m, "status": status}
+        required_at = np.max(required)
+    if status is None:
+        below = (np.nan_to_num(clearance, nan=np.inf) < required).any()
+        status = "violation" if below or surface_violation else "unknown" if unknown.any() else "clear"
+    return {**profile_identity(profile), "min_clearance_m": min_clearance, "min_clearance_station_m": at,
+            "unknown_m": unknown_m, "required_m": float(required_at), "status": status,
+            "min_surface_m": _min_surface(surface)}
 
 
-def find_violations(profile, ground, clearance, required_m) -> list[dict]:
-    """One record per contiguous stretch below the required clearance, at its worst station."""
-    below = np.nan_to_num(clearance, nan=np.inf) < required_m
-    records = []
+def _min_surface(surface) -> float:
+    if surface is None or not np.isfinite(surface.distance_m).any():
+        return float("nan")
+    return float(np.min(surface.distance_m[np.isfinite(surface.distance_m)]))
+
+
+def violation_stretches(clearance, required, categories) -> list[tuple[int, int, int]]:
+    """(first, last, worst) of each contiguous stretch below the required value within one category.
+
+    The worst station is the one with the largest deficit (required minus clearance).
+    """
+    below = np.nan_to_num(clearance, nan=np.inf) < required
+    stretches = []
     for first, last in runs(below):
-        worst = first + int(np.argmin(clearance[first:last + 1]))
-        x, y, z = profile.xyz[worst]
-        records.append({
-            "span_id": profile.span_id, "wire": profile.wire, "load_case": profile.load_case,
-            "station_m": float(profile.stations_m[worst]), "start_m": float(profile.stations_m[first]),
-            "end_m": float(profile.stations_m[last]), "x": float(x), "y": float(y),
-            "conductor_z_m": float(z), "ground_z_m": float(ground[worst]),
-            "clearance_m": float(clearance[worst]), "required_m": required_m,
-            "deficit_m": float(required_m - clearance[worst]),
-        })
+        cuts = first + 1 + np.flatnonzero(categories[first + 1:last + 1] != categories[first:last])
+        for a, b in zip(np.r_[first, cuts], np.r_[cuts - 1, last]):
+            worst = int(a) + int(np.argmax(required[a:b + 1] - clearance[a:b + 1]))
+            stretches.append((int(a), int(b), worst))
+    return stretches
+
+
+def violation_record(profile, ground, clearance, required, categories, first, last, worst) -> dict:
+    """One violation at the worst station of a stretch."""
+    x, y, z = profile.xyz[worst]
+    return {
+        **profile_identity(profile), "category": str(categories[worst]),
+        "station_m": float(profile.stations_m[worst]), "start_m": float(profile.stations_m[first]),
+        "end_m": float(profile.stations_m[last]), "x": float(x), "y": float(y),
+        "conductor_z_m": float(z), "ground_z_m": float(ground[worst]),
+        "clearance_m": float(clearance[worst]), "required_m": float(required[worst]),
+        "deficit_m": float(required[worst] - clearance[worst]),
+    }
+
+
+def find_violations(profile, ground, clearance, required_m, category="ground") -> list[dict]:
+    """One record per contiguous stretch below the required clearance (per category), at its worst station.
+
+    ``required_m`` and ``category`` are one value or one per station.
+    """
+    required = np.broadcast_to(np.asarray(required_m, dtype=float), clearance.shape)
+    categories = np.broadcast_to(np.asarray(category, dtype=object), clearance.shape)
+    return [violation_record(profile, ground, clearance, required, categories, *stretch)
+            for stretch in violation_stretches(clearance, required, categories)]
+
+
+def find_surface_violations(profile, ground, surface, required_m) -> list[dict]:
+    """Stretches where the 3D distance to the surface model is below ``required_m``.
+
+    ``clearance_m`` is that distance; ``surface_x/y/z`` the nearest surface point.
+    """
+    distance = surface.distance_m
+    required = np.full(distance.shape, float(required_m))
+    categories = np.full(distance.shape, "surface", dtype=object)
+    records = []
+    for first, last, worst in violation_stretches(distance, required, categories):
+        record = violation_record(profile, ground, distance, required, categories, first, last, worst)
+        record.update(surface_x=float(surface.x[worst]), surface_y=float(surface.y[worst]),
+                      surface_z=float(surface.z[worst]))
+        records.append(record)
     return records

@@ -18,17 +18,21 @@ from routesag.pipeline import Stage
 CAUTION = ("Screening aid only: loads and required clearances come from the governing code (NESC, EN 50341 "
            "national annex, local rules); results must be confirmed by a licensed engineer.")
 
-VIOLATION_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case", "station_m", "start_m", "end_m",
-                     "conductor_z_m", "ground_z_m", "clearance_m", "required_m", "deficit_m"]
+VIOLATION_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case", "station_m", "start_m",
+                     "end_m", "conductor_z_m", "ground_z_m", "clearance_m", "required_m", "deficit_m", "category",
+                     "surface_x", "surface_y", "surface_z"]
+TEXT_COLUMNS = ("load_case", "category", "reason", "load_cases", "categories", "span_ids", "wire", "wires")
+INTEGER_COLUMNS = ("rank", "n_violations")
 
 
 class AssembleLayers(Stage):
     name = "assemble_layers"
     requires = ("project", "structures", "spans", "sections", "tensions", "conductors", "clearance",
-                "violations", "structure_loads", "tension_exceedances", "sag_table", "work_crs")
+                "violations", "structure_loads", "tension_exceedances", "sag_table", "hotspots",
+                "unknown_stretches", "work_crs")
     provides = ("layers",)
     description = ("turn results into GeoDataFrames: structures, spans, sections, conductors, violations, "
-                   "structure loads, tension exceedances, sag table, run_info")
+                   "structure loads, tension exceedances, sag table, hotspots, unknown stretches, run_info")
 
     def run(self, data, ctx):
         crs = data["work_crs"]
@@ -43,6 +47,9 @@ class AssembleLayers(Stage):
         layers["structure_loads"] = (structure_loads_layer(data["structure_loads"], crs), "Point Z")
         layers["tension_exceedances"] = (data["tension_exceedances"].copy(), None)
         layers["sag_table"] = (data["sag_table"].copy(), None)
+        layers["hotspots"] = (hotspots_layer(data["hotspots"], crs), "Point Z")
+        layers["unknown_stretches"] = (unknown_stretches_layer(data["unknown_stretches"], spans, crs),
+                                       "LineString Z")
         layers["run_info"] = (run_info_table(data["project"], ctx), None)
         return {"layers": layers}
 
@@ -115,13 +122,23 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
     return gpd.GeoDataFrame(frame, geometry=geometry, crs=crs)
 
 
+def empty_layer(columns, crs) -> gpd.GeoDataFrame:
+    """A layer with no rows that still carries its columns (text, integer or real) and CRS."""
+    def dtype(column):
+        if column.endswith("_id") or column in TEXT_COLUMNS:
+            return str
+        return "int64" if column in INTEGER_COLUMNS else float
+
+    empty = pd.DataFrame({c: pd.Series(dtype=dtype(c)) for c in columns})
+    return gpd.GeoDataFrame(empty, geometry=gpd.GeoSeries([], crs=crs), crs=crs)
+
+
 def violations_layer(violations, spans, crs) -> gpd.GeoDataFrame:
     """Violation points (Point Z on the wire at the worst station of each stretch)."""
     if len(violations) == 0:
-        empty = pd.DataFrame({c: pd.Series(dtype=str if c.endswith("_id") or c in ("wire", "load_case") else float)
-                              for c in VIOLATION_COLUMNS})
-        return gpd.GeoDataFrame(empty, geometry=gpd.GeoSeries([], crs=crs), crs=crs)
+        return empty_layer(VIOLATION_COLUMNS, crs)
     frame = violations.merge(spans[["span_id", "from_id", "to_id", "section_id"]], on="span_id", how="left")
+    frame = frame.reindex(columns=list(dict.fromkeys(list(frame.columns) + VIOLATION_COLUMNS)))
     geometry = shapely.points(frame["x"], frame["y"], frame["conductor_z_m"])
     extra = [c for c in frame.columns if c not in VIOLATION_COLUMNS + ["x", "y"]]
     return gpd.GeoDataFrame(frame[VIOLATION_COLUMNS + extra], geometry=geometry, crs=crs)
@@ -132,6 +149,26 @@ def structure_loads_layer(loads, crs) -> gpd.GeoDataFrame:
     geometry = shapely.points(loads["x"], loads["y"], loads["z"])
     frame = loads.drop(columns=["x", "y", "z"]).astype({"structure_id": str, "line_id": str, "wire": str})
     return gpd.GeoDataFrame(frame, geometry=geometry, crs=crs)
+
+
+def hotspots_layer(hotspots, crs) -> gpd.GeoDataFrame:
+    """Hotspots as Point Z at their governing (worst) violation."""
+    columns = [c for c in hotspots.columns if c not in ("x", "y", "z")]
+    if len(hotspots) == 0:
+        return empty_layer(columns, crs)
+    geometry = shapely.points(hotspots["x"], hotspots["y"], hotspots["z"])
+    return gpd.GeoDataFrame(hotspots[columns].copy(), geometry=geometry, crs=crs)
+
+
+def unknown_stretches_layer(stretches, spans, crs) -> gpd.GeoDataFrame:
+    """Stretches of wire with unknown clearance as LineString Z, with the span's ends and section."""
+    ends = ["span_id", "from_id", "to_id", "section_id"]
+    columns = [c for c in stretches.columns if c != "geometry"]
+    if len(stretches) == 0:
+        return empty_layer(ends + [c for c in columns if c != "span_id"], crs)
+    frame = stretches.merge(spans[ends], on="span_id", how="left")
+    order = ends + [c for c in columns if c not in ends]
+    return gpd.GeoDataFrame(frame[order], geometry=list(frame["geometry"]), crs=crs)
 
 
 def run_info_table(project, ctx) -> pd.DataFrame:
