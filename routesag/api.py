@@ -64,3 +64,5 @@ def check_destination(project: Project) -> None:
         raise OutputError(f"output {out} is one of the input files; choose another output path")
     if not out.parent.is_dir():
         raise OutputError(f"output folder {out.parent} does not exist")
+    if out.is_dir():
+        raise OutputError(f"output {out} is a folder; give a .gpkg file path")

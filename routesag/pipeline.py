@@ -21,8 +21,8 @@ log = logging.getLogger("routesag")
 ENTRY_POINT_GROUP = "routesag.stages"
 
 # The built-in chain, in a valid order; the runner re-orders by requires/provides anyway.
-DEFAULT_CHAIN = ("read_inputs", "build_spans", "solve_tensions", "build_conductors",
-                 "sample_terrain", "check_clearance", "assemble_layers", "write_geopackage")
+DEFAULT_CHAIN = ("read_inputs", "build_spans", "check_spans", "solve_tensions", "build_conductors",
+                 "check_sags", "sample_terrain", "check_clearance", "assemble_layers", "write_geopackage")
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)

@@ -42,6 +42,22 @@ def one_of(*choices):
     return check
 
 
+def crs_text(value):
+    from pyproj import CRS  # lazy: reading a project file needs no GIS stack otherwise
+    from pyproj.exceptions import CRSError
+
+    try:
+        CRS.from_user_input(value)
+    except CRSError:
+        return "is not a CRS PROJ knows (give e.g. 'EPSG:32633')"
+    return None
+
+
+def list_of_text(value):
+    bad = [item for item in value if not isinstance(item, str)]
+    return f"must list stage names as text (not {bad[0]!r})" if bad else None
+
+
 NUMBER = (int, float)
 
 SCHEMA: dict[str, dict[str, Key]] = {
@@ -49,7 +65,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "structures": Key(str, doc="structures layer: any vector source GDAL reads, or CSV with x, y"),
         "structures_layer": Key(str, None, doc="layer name inside a multi-layer source"),
         "terrain": Key(str, doc="single-band elevation raster [m]"),
-        "crs": Key(str, None, doc="CRS of the structures when the source has none (CSV)"),
+        "crs": Key(str, None, crs_text, doc="CRS of the structures when the source has none (CSV)"),
         "terrain_z_units": Key(str, "m", one_of("m", "ft", "ftUS"), "vertical unit of the terrain"),
     },
     "line": {
@@ -90,7 +106,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "path": Key(str, "results.gpkg", doc="GeoPackage to write"),
     },
     "pipeline": {
-        "stages": Key(list, [], doc="stages to add to (or replace in) the built-in chain"),
+        "stages": Key(list, [], list_of_text, doc="stages to add to (or replace in) the built-in chain"),
     },
 }
 

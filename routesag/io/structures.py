@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 import pyogrio
 from pyproj import CRS
+from pyproj.exceptions import CRSError
 
 from routesag.errors import DataError
 
@@ -51,11 +52,22 @@ def read_structures_file(path, layer=None, crs=None) -> gpd.GeoDataFrame:
         gdf = pyogrio.read_dataframe(path, layer=layer)
     except Exception as exc:
         raise DataError(f"structures file {path}: cannot be read ({_short(exc)})") from None
+    name = layer if layer is not None else (layers[0] if layers else "")
     if not isinstance(gdf, gpd.GeoDataFrame) or gdf.geometry is None:
-        raise DataError(f"structures file {path}: layer has no geometry; expected points")
+        raise DataError(f"structures file {path}: layer {name!r} has no geometry; expected points")
+    if len(gdf) == 0:
+        raise DataError(f"structures file {path}: layer {name!r} is empty (no features)")
     if gdf.crs is None and crs:
-        gdf = gdf.set_crs(crs)
+        gdf = _set_crs(gdf, crs, path)
     return gdf
+
+
+def _set_crs(gdf, crs, path):
+    try:
+        return gdf.set_crs(crs)
+    except CRSError:
+        raise DataError(f"structures file {path}: [inputs] crs = {crs!r} is not a CRS PROJ knows "
+                        "(give e.g. 'EPSG:32633')") from None
 
 
 def _read_csv(path: Path, crs) -> gpd.GeoDataFrame:
@@ -72,7 +84,7 @@ def _read_csv(path: Path, crs) -> gpd.GeoDataFrame:
     if bad:
         raise DataError([f"structures file {path}: row {i + 1}: x/y must be numbers" for i in bad])
     geometry = gpd.points_from_xy(df["x"].astype(float), df["y"].astype(float))
-    return gpd.GeoDataFrame(df.drop(columns=["x", "y"]), geometry=geometry, crs=crs)
+    return _set_crs(gpd.GeoDataFrame(df.drop(columns=["x", "y"]), geometry=geometry), crs, path)
 
 
 def _short(exc: Exception) -> str:
@@ -220,8 +232,23 @@ def working_crs(crs: CRS, lon_lat_center=None) -> tuple[CRS, str]:
     return utm, f"structures CRS {crs.to_string()} is {why}: reprojected to {utm.to_string()} (UTM zone {zone})"
 
 
-def to_working_crs(gdf: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFrame, CRS, str]:
-    """Reproject structures to a projected metre CRS (see :func:`working_crs`)."""
-    center = gdf.to_crs(4326).geometry.union_all().centroid
+def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, CRS, str]:
+    """Reproject structures to a projected metre CRS (see :func:`working_crs`).
+
+    Raises
+    ------
+    DataError
+        Coordinates that cannot be placed on the earth in their CRS (e.g. a
+        latitude beyond 90 degrees: projected coordinates read as lat/lon).
+    """
+    lon_lat = gdf.to_crs(4326)
+    lon, lat = lon_lat.geometry.x.to_numpy(), lon_lat.geometry.y.to_numpy()
+    bad = ~(np.isfinite(lon) & np.isfinite(lat) & (np.abs(lat) <= 90.0) & (np.abs(lon) <= 180.0))
+    if bad.any():
+        raise DataError([f"structures file {source}: structure {sid}: coordinates "
+                         f"({x:.6g}, {y:.6g}) are not a place on earth in CRS {CRS(gdf.crs).to_string()}; "
+                         "check the CRS (projected metres read as degrees?)"
+                         for sid, x, y in zip(gdf.loc[bad, "structure_id"], gdf.geometry.x[bad], gdf.geometry.y[bad])])
+    center = lon_lat.geometry.union_all().centroid
     crs, note = working_crs(gdf.crs, (center.x, center.y))
     return (gdf if CRS(gdf.crs) == crs else gdf.to_crs(crs)), crs, note

@@ -5,7 +5,9 @@ block that covers the points asked for, so a country-wide DTM costs no more
 memory than the few hundred cells under one span.
 """
 
+import contextlib
 import math
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -90,7 +92,7 @@ class TerrainSampler:
                             f"{', '.join(Z_UNIT_FACTORS)}")
         self._ds = _open_single_band(self._path)
         try:
-            self._crs = pyproj.CRS.from_wkt(self._ds.crs.to_wkt())
+            self._crs = _parse_crs(self._path, self._ds)
             self._horizontal_crs = _horizontal_part(self._crs)
             scale, offset = self._ds.scales[0], self._ds.offsets[0]
             self._scale = 1.0 if scale is None else float(scale)
@@ -313,7 +315,12 @@ class TerrainSampler:
     # -- raw reads --------------------------------------------------------------------
     def _read(self, window):
         """Window read as float64 metres, NaN where masked."""
-        data = self._ds.read(1, window=window, masked=True)
+        try:
+            with _quiet_undecodable_gdal_messages():
+                data = self._ds.read(1, window=window, masked=True)
+        except (rasterio.errors.RasterioError, UnicodeDecodeError) as exc:
+            raise DataError(f"terrain {self._path}: cells of window {window} cannot be read, the file "
+                            f"may be truncated or corrupt ({_first_line(exc)})") from None
         self.sample_window_count += 1
         self.last_window = window
         z = np.ma.filled(data.astype(np.float64), np.nan)
@@ -342,10 +349,14 @@ class TerrainSampler:
 
 def _open_single_band(path):
     """Open the raster and check it has a CRS and one band; DataError if not."""
+    if not path.is_file():
+        raise DataError(f"terrain {path} cannot be opened: file not found"
+                        + (" (it is a folder)" if path.is_dir() else ""))
     try:
-        ds = rasterio.open(path)
-    except (rasterio.errors.RasterioIOError, OSError) as exc:
-        raise DataError(f"terrain {path} cannot be opened as a raster: {exc}") from exc
+        with _quiet_undecodable_gdal_messages():
+            ds = rasterio.open(path)
+    except (rasterio.errors.RasterioError, OSError, UnicodeDecodeError) as exc:
+        raise DataError(f"terrain {path} cannot be opened as a raster: {_first_line(exc)}") from None
     problem = None
     if ds.crs is None or not ds.crs.to_wkt():
         problem = f"terrain {path} has no CRS"
@@ -355,6 +366,45 @@ def _open_single_band(path):
         ds.close()
         raise DataError(problem)
     return ds
+
+
+def _parse_crs(path, ds):
+    """The raster CRS as :class:`pyproj.CRS`; DataError when PROJ cannot read it."""
+    try:
+        return pyproj.CRS.from_wkt(ds.crs.to_wkt())
+    except (pyproj.exceptions.CRSError, rasterio.errors.RasterioError) as exc:
+        raise DataError(f"terrain {path} has a CRS that cannot be understood: {_first_line(exc)}") from None
+
+
+def _first_line(exc):
+    text = str(exc).strip()
+    return text.splitlines()[0][:200] if text else type(exc).__name__
+
+
+@contextlib.contextmanager
+def _quiet_undecodable_gdal_messages():
+    """Keep GDAL messages that are not UTF-8 (bytes of a corrupt file) from printing a traceback.
+
+    rasterio decodes every GDAL message in a callback; a message quoting binary
+    content fails to decode there, and Python prints that failure through
+    ``sys.unraisablehook`` or ``sys.excepthook``. The open or read still fails
+    and is reported as a DataError; only the stray print is dropped.
+    """
+    previous_unraisable, previous_except = sys.unraisablehook, sys.excepthook
+
+    def unraisable_hook(unraisable):
+        if not isinstance(unraisable.exc_value, UnicodeDecodeError):
+            previous_unraisable(unraisable)
+
+    def except_hook(kind, value, tb):
+        if not isinstance(value, UnicodeDecodeError):
+            previous_except(kind, value, tb)
+
+    sys.unraisablehook, sys.excepthook = unraisable_hook, except_hook
+    try:
+        yield
+    finally:
+        sys.unraisablehook, sys.excepthook = previous_unraisable, previous_except
 
 
 def _horizontal_part(crs):

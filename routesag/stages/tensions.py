@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import pandas as pd
 
-from routesag.errors import InputError, SolveError
+from routesag.errors import ProjectError, SolveError
 from routesag.physics.loads import bare_weight_n_m, conductor_load
 from routesag.physics.state_change import change_of_state
 from routesag.pipeline import Stage
@@ -21,8 +21,15 @@ class SolveTensions(Stage):
 
     def run(self, data, ctx):
         project = data["project"]
-        rows = [row for _, section in data["sections"].iterrows()
-                for row in section_tensions(section, project)]
+        stringing_tension_n(project)  # a bad stringing tension is one problem, not one per section
+        rows, problems = [], []
+        for _, section in data["sections"].iterrows():
+            try:
+                rows.extend(section_tensions(section, project))
+            except SolveError as exc:  # report every section and case that fails, together
+                problems.extend(exc.problems)
+        if problems:
+            raise SolveError(problems)
         return {"tensions": pd.DataFrame(rows)}
 
 
@@ -31,7 +38,7 @@ def stringing_tension_n(project) -> float:
     conductor = project.conductor
     tension_n = project.stringing.horizontal_tension_n(conductor, bare_weight_n_m(conductor.mass_kg_m))
     if tension_n >= conductor.rated_strength_n:
-        raise InputError(f"project file {project.path}: [stringing] tension {tension_n / 1e3:.1f} kN is not "
+        raise ProjectError(f"project file {project.path}: [stringing] tension {tension_n / 1e3:.1f} kN is not "
                          f"below the rated strength {conductor.rated_strength_n / 1e3:.1f} kN")
     return tension_n
 
@@ -42,7 +49,7 @@ def section_tensions(section, project) -> list[dict]:
     w0 = bare_weight_n_m(c.mass_kg_m)
     h0 = stringing_tension_n(project)
     t0 = project.stringing.temperature_c
-    rows = []
+    rows, problems = [], []
     for case in project.load_cases:
         load = conductor_load(c.mass_kg_m, c.diameter_m, case.ice_m, case.wind_pa, case.constant_n_m,
                               project.ice_density_kg_m3)
@@ -50,8 +57,9 @@ def section_tensions(section, project) -> list[dict]:
             h = change_of_state(section["ruling_span_m"], h0, w0, t0, load.resultant_n_m, case.temperature_c,
                                 c.modulus_pa, c.area_m2, c.expansion_per_c)
         except SolveError as exc:
-            raise SolveError(f"tension section {section['section_id']}, load case {case.name!r}: "
-                             f"change of state cannot be solved ({exc})") from None
+            problems.append(f"tension section {section['section_id']}, load case {case.name!r}: "
+                            f"change of state cannot be solved ({exc})")
+            continue
         rows.append({
             "section_id": section["section_id"], "load_case": case.name,
             "temperature_c": case.temperature_c, "ice_mm": case.ice_m * 1e3, "wind_pa": case.wind_pa,
@@ -60,4 +68,6 @@ def section_tensions(section, project) -> list[dict]:
             "blowout_rad": load.blowout_rad, "side": case.side_sign,
             "horizontal_tension_n": h, "catenary_m": h / load.resultant_n_m,
         })
+    if problems:
+        raise SolveError(problems)
     return rows
