@@ -149,11 +149,11 @@ def sag_ratio_warnings(profiles, spans) -> list[str]:
         ratio = p.sag_m / float(span_m[p.span_id])
         if ratio > worst.get(p.span_id, (-np.inf, ""))[0]:
             worst[p.span_id] = (ratio, p.load_case)
-    items = [f"{span_id} ({ratio:.1%} in {case})" for span_id, (ratio, case) in worst.items()
+    items = [f"{span_id} ({ratio * 100:.1f} % in {case})" for span_id, (ratio, case) in worst.items()
              if ratio > SAG_RATIO_LIMIT]
     if not items:
         return []
-    return [f"{len(items)} span(s) sag more than {SAG_RATIO_LIMIT:.0%} of their length: {_listing(items)}; "
+    return [f"{len(items)} span(s) sag more than {SAG_RATIO_LIMIT * 100:g} % of their length: {_listing(items)}; "
             "the ruling-span tension and parabolic estimates lose accuracy there (the wire itself is drawn "
             "as an exact catenary): check the stringing tension"]
 
