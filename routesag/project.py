@@ -16,6 +16,8 @@ from typing import Any, Callable
 from routesag.errors import ProjectError
 
 REQUIRED = object()
+#: Highest credible conductor attachment above ground [m]; more is a unit or typing error.
+MAX_ATTACH_HEIGHT_M = 200.0
 
 
 @dataclass(frozen=True)
@@ -34,6 +36,12 @@ def positive(value):
 
 def non_negative(value):
     return None if value >= 0 else "must be >= 0"
+
+
+def up_to(high):
+    def check(value):
+        return None if 0 < value <= high else f"must be > 0 and <= {high:g}"
+    return check
 
 
 def one_of(*choices):
@@ -69,7 +77,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "terrain_z_units": Key(str, "m", one_of("m", "ft", "ftUS"), "vertical unit of the terrain"),
     },
     "line": {
-        "attach_height_m": Key(NUMBER, None, positive,
+        "attach_height_m": Key(NUMBER, None, up_to(MAX_ATTACH_HEIGHT_M),
                                "attachment height above ground for structures without attach_height_m [m]"),
     },
     "conductor": {

@@ -15,6 +15,7 @@ from typing import Callable
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+import pyogrio
 import pytest
 import shapely
 from click.testing import CliRunner
@@ -69,6 +70,17 @@ def stringing(line):
     return lambda tmp: edit(good_survey(tmp), "horizontal_tension_kn = 30.0", line)
 
 
+def several_layers(tmp: Path) -> Path:
+    """A GeoPackage holding a 'poles' point layer and a 'towers' attribute table, no 'structures'."""
+    project = good_survey(tmp)
+    path = tmp / "structures.gpkg"
+    path.unlink()
+    write_layer(path, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                shapely.points(np.asarray(line_xy(XS[:2]))), layer="poles")
+    pyogrio.write_dataframe(pd.DataFrame({"structure_id": ["P1"], "seq": [1]}), path, layer="towers")
+    return project
+
+
 def bad_field_and_missing_terrain(tmp: Path) -> Path:
     project = with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2], "kind": ["strain", "anchor"]})
     return edit(project, 'terrain = "terrain.tif"', 'terrain = "gone.tif"')
@@ -100,6 +112,13 @@ CASES = [
          lambda tmp: edit(good_survey(tmp), 'terrain = "terrain.tif"',
                           'terrain = "terrain.tif"\nstructures_layer = "towers"'),
          DataError, (r"structures\.gpkg: no layer 'towers'; layers: structures",)),
+    Case("several layers and none named", several_layers, DataError,
+         (r"structures\.gpkg: holds 2 layers \(poles, towers\); name the structures layer with "
+          r"\[inputs\] structures_layer",)),
+    Case("layer without geometry",
+         lambda tmp: edit(several_layers(tmp), 'terrain = "terrain.tif"',
+                          'terrain = "terrain.tif"\nstructures_layer = "towers"'),
+         DataError, (r"structures\.gpkg: layer 'towers' has no geometry; expected points",)),
     Case("empty layer",
          lambda tmp: with_structures(tmp, {"structure_id": pd.Series([], dtype=str),
                                            "seq": pd.Series([], dtype=float)}, gpd.GeoSeries([], crs=CRS)),
@@ -205,6 +224,10 @@ CASES = [
          (r"\[clearance\]: station_m = 0\.0 must be > 0",)),
     Case("station spacing larger than the shortest span", lambda tmp: good_survey(tmp, station_m=260.0),
          ProjectError, (r"\[clearance\] station_m = 260 m is larger than the shortest span A:P2-P3 \(250\.0 m\)",)),
+    Case("station spacing absurdly fine", lambda tmp: good_survey(tmp, station_m=1e-6), ProjectError,
+         (r"\[clearance\] station_m = 1e-06 m asks for 9e\+08 stations per load case \(at most 1e\+07\)",)),
+    Case("absurd default attach height", lambda tmp: good_survey(tmp, attach_height_m=300.0), ProjectError,
+         (r"\[line\]: attach_height_m = 300\.0 must be > 0 and <= 200",)),
     Case("plugin stage list holds a number",
          lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "out.gpkg"\n[pipeline]\nstages = [3]'),
          ProjectError, (r"\[pipeline\]: stages = \[3\] must list stage names as text",)),

@@ -17,11 +17,11 @@ from pyproj import CRS
 from pyproj.exceptions import CRSError
 
 from routesag.errors import DataError
+from routesag.project import MAX_ATTACH_HEIGHT_M
 
 REQUIRED_FIELDS = ("structure_id", "seq")
 OPTIONAL_FIELDS = ("line_id", "kind", "attach_height_m", "ground_z_m")
 KINDS = ("suspension", "strain")
-MAX_ATTACH_HEIGHT_M = 200.0
 DEFAULT_LINE_ID = "line"
 
 
@@ -48,18 +48,30 @@ def read_structures_file(path, layer=None, crs=None) -> gpd.GeoDataFrame:
         raise DataError(f"structures file {path}: cannot be read as a vector dataset ({_short(exc)})") from None
     if layer is not None and layer not in layers:
         raise DataError(f"structures file {path}: no layer {layer!r}; layers: {', '.join(layers) or 'none'}")
+    layer = _default_layer(path, layers) if layer is None else layer
     try:
         gdf = pyogrio.read_dataframe(path, layer=layer)
     except Exception as exc:
         raise DataError(f"structures file {path}: cannot be read ({_short(exc)})") from None
-    name = layer if layer is not None else (layers[0] if layers else "")
     if not isinstance(gdf, gpd.GeoDataFrame) or gdf.geometry is None:
-        raise DataError(f"structures file {path}: layer {name!r} has no geometry; expected points")
+        raise DataError(f"structures file {path}: layer {layer!r} has no geometry; expected points")
     if len(gdf) == 0:
-        raise DataError(f"structures file {path}: layer {name!r} is empty (no features)")
+        raise DataError(f"structures file {path}: layer {layer!r} is empty (no features)")
     if gdf.crs is None and crs:
         gdf = _set_crs(gdf, crs, path)
     return gdf
+
+
+def _default_layer(path, layers) -> str:
+    """The only layer, or the one called ``structures``; several others need a name."""
+    if len(layers) == 1:
+        return layers[0]
+    if "structures" in layers:
+        return "structures"
+    if not layers:
+        raise DataError(f"structures file {path}: holds no layers")
+    raise DataError(f"structures file {path}: holds {len(layers)} layers ({', '.join(layers)}); "
+                    "name the structures layer with [inputs] structures_layer")
 
 
 def _set_crs(gdf, crs, path):

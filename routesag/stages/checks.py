@@ -33,6 +33,8 @@ LONG_SPAN_M = 1500.0
 ADJACENT_SPAN_RATIO = 2.0
 #: Smallest band along the terrain edge in which a structure is flagged [m].
 EDGE_BAND_MIN_M = 10.0
+#: Most stations one load case may ask for; more is a typing error in station_m, not a finer answer.
+MAX_STATIONS = 10_000_000
 #: Items named in one warning; the rest are counted.
 MAX_LISTED = 10
 
@@ -69,13 +71,19 @@ class CheckSags(Stage):
 
 
 def check_station_spacing(project, spans) -> None:
-    """Refuse a station spacing wider than the shortest span (the span would get no inner station).
+    """Refuse a station spacing wider than the shortest span (the span would get no inner station),
+    or so fine that one load case needs more than :data:`MAX_STATIONS` stations.
 
     Raises
     ------
     ProjectError
-        Naming the project file, the key and the shortest span.
+        Naming the project file, the key and the shortest span or the station count.
     """
+    stations = float(spans["span_m"].sum()) / project.station_m
+    if stations > MAX_STATIONS:
+        raise ProjectError(f"project file {project.path}: [clearance] station_m = {project.station_m:g} m asks "
+                           f"for {stations:.3g} stations per load case (at most {MAX_STATIONS:.0e}); use at least "
+                           f"{float(spans['span_m'].sum()) / MAX_STATIONS:.3g} m")
     shortest = spans.loc[spans["span_m"].idxmin()]
     if project.station_m > shortest["span_m"]:
         raise ProjectError(f"project file {project.path}: [clearance] station_m = {project.station_m:g} m is "
