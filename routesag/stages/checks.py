@@ -14,9 +14,8 @@ References
    in L.L. Grigsby (ed.), Electric Power Generation, Transmission and
    Distribution, 3rd ed., CRC Press, 2012 (parabola valid for small sag
    ratios; ruling span).
-.. [2] McDonald, J.C. and Peyrot, A.H., "Sag-tension calculations valid for
-   any line geometry", ASCE Journal of Structural Engineering, 1990 (ruling
-   span poor when adjacent spans differ by about 2x or in steep terrain).
+.. [2] McDonald and Peyrot, ASCE: the ruling span is a poor approximation
+   when adjacent spans differ by about 2x or in steep terrain.
 """
 from __future__ import annotations
 
