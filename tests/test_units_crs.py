@@ -7,15 +7,19 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import geopandas as gpd
 import numpy as np
 import pyogrio
 import pytest
 import rasterio
+import shapely
 from pyproj import Transformer
 from rasterio.transform import from_origin
 
 import routesag
+from routesag.io.structures import to_working_crs
 from tests.conftest import CRS, X0, Y0, write_plane_raster, write_project, write_structures
+from tests.test_validation import local_grid
 
 XS = [0.0, 300.0, 550.0, 900.0]
 KINDS = ["strain", "suspension", "strain", "strain"]
@@ -129,3 +133,12 @@ def test_terrain_in_horizontal_feet_crs(tmp_path, metric):
     result = routesag.run(project)
     assert_same_clearances(result, metric, atol=1e-4)
     assert 'UNIT["foot",0.3048' in run_info(result)["note.terrain_crs"]
+
+
+def test_local_grid_in_metres_is_used_as_is():
+    """A site grid in metres cannot be placed on earth; spans are measured in it directly."""
+    gdf = gpd.GeoDataFrame({"structure_id": ["a", "b"]}, geometry=shapely.points([(0.0, 0.0), (300.0, 0.0)]),
+                           crs=local_grid("metre", 1))
+    out, crs, note = to_working_crs(gdf, "s.gpkg")
+    assert out is gdf and crs.is_engineering
+    assert note == "structures CRS 'site grid' is a local grid in metres: used as is"

@@ -70,6 +70,12 @@ def stringing(line):
     return lambda tmp: edit(good_survey(tmp), "horizontal_tension_kn = 30.0", line)
 
 
+def local_grid(unit: str, metres: float) -> str:
+    """An engineering (site) CRS: planar coordinates that PROJ cannot place on earth."""
+    return (f'ENGCRS["site grid",EDATUM["site"],CS[Cartesian,2],AXIS["x",east,LENGTHUNIT["{unit}",{metres}]],'
+            f'AXIS["y",north,LENGTHUNIT["{unit}",{metres}]]]')
+
+
 def several_layers(tmp: Path) -> Path:
     """A GeoPackage holding a 'poles' point layer and a 'towers' attribute table, no 'structures'."""
     project = good_survey(tmp)
@@ -183,6 +189,14 @@ CASES = [
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]}, crs="EPSG:4326"),
          DataError, (r"structure P1: coordinates \(500000, 5\.6002e\+06\) are not a place on earth in CRS "
                      r"EPSG:4326",)),
+    Case("structures in a local grid the terrain cannot relate to",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]}, crs=local_grid("metre", 1)),
+         DataError, (r"terrain .*terrain\.tif: points in CRS 'site grid' cannot be transformed to the raster CRS "
+                     r"'WGS 84 / UTM zone 33N'",)),
+    Case("structures in a local grid in feet",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                                     crs=local_grid("foot", 0.3048)),
+         DataError, (r"structures\.gpkg: CRS 'site grid' cannot be transformed to lat/lon .*reproject the layer",)),
     Case("CSV without CRS",
          lambda tmp: (good_survey(tmp, structures="s.csv"),
                       (tmp / "s.csv").write_text(f"structure_id,seq,x,y\nP1,1,{X0},{Y0}\nP2,2,{X0 + 300},{Y0}\n")

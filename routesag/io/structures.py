@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 import pyogrio
 from pyproj import CRS
-from pyproj.exceptions import CRSError
+from pyproj.exceptions import CRSError, ProjError
 
 from routesag.errors import DataError
 from routesag.project import MAX_ATTACH_HEIGHT_M
@@ -247,13 +247,24 @@ def working_crs(crs: CRS, lon_lat_center=None) -> tuple[CRS, str]:
 def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, CRS, str]:
     """Reproject structures to a projected metre CRS (see :func:`working_crs`).
 
+    A local (engineering) grid in metres cannot be placed on earth and is used
+    as is; the terrain must then be in the same grid.
+
     Raises
     ------
     DataError
         Coordinates that cannot be placed on the earth in their CRS (e.g. a
-        latitude beyond 90 degrees: projected coordinates read as lat/lon).
+        latitude beyond 90 degrees: projected coordinates read as lat/lon), or
+        a CRS that cannot be transformed to lat/lon.
     """
-    lon_lat = gdf.to_crs(4326)
+    crs = CRS(gdf.crs)
+    if crs.is_engineering and crs.axis_info and crs.axis_info[0].unit_name in ("metre", "meter"):
+        return gdf, crs, f"structures CRS {crs.name!r} is a local grid in metres: used as is"
+    try:
+        lon_lat = gdf.to_crs(4326)
+    except (CRSError, ProjError) as exc:
+        raise DataError(f"structures file {source}: CRS {crs.name!r} cannot be transformed to lat/lon "
+                        f"({_short(exc)}); reproject the layer to a projected CRS in metres") from None
     lon, lat = lon_lat.geometry.x.to_numpy(), lon_lat.geometry.y.to_numpy()
     bad = ~(np.isfinite(lon) & np.isfinite(lat) & (np.abs(lat) <= 90.0) & (np.abs(lon) <= 180.0))
     if bad.any():

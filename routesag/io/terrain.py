@@ -8,6 +8,7 @@ memory than the few hundred cells under one span.
 import contextlib
 import math
 import sys
+import threading
 from pathlib import Path
 
 import numpy as np
@@ -251,8 +252,13 @@ class TerrainSampler:
             return x, y
         transformer = self._transformers.get(source)
         if transformer is None:
-            transformer = pyproj.Transformer.from_crs(
-                _horizontal_part(source), self._horizontal_crs, always_xy=True)
+            try:
+                transformer = pyproj.Transformer.from_crs(
+                    _horizontal_part(source), self._horizontal_crs, always_xy=True)
+            except pyproj.exceptions.ProjError as exc:
+                raise DataError(f"terrain {self._path}: points in CRS {source.name!r} cannot be transformed "
+                                f"to the raster CRS {self._crs.name!r} ({_first_line(exc)}); give both "
+                                "inputs CRSs that PROJ can relate") from None
             self._transformers[source] = transformer
         xt, yt = transformer.transform(x, y)
         xt, yt = np.asarray(xt, dtype=np.float64), np.asarray(yt, dtype=np.float64)
@@ -381,6 +387,11 @@ def _first_line(exc):
     return text.splitlines()[0][:200] if text else type(exc).__name__
 
 
+_hook_lock = threading.Lock()
+_hook_users = 0
+_saved_hooks = None
+
+
 @contextlib.contextmanager
 def _quiet_undecodable_gdal_messages():
     """Keep GDAL messages that are not UTF-8 (bytes of a corrupt file) from printing a traceback.
@@ -388,23 +399,35 @@ def _quiet_undecodable_gdal_messages():
     rasterio decodes every GDAL message in a callback; a message quoting binary
     content fails to decode there, and Python prints that failure through
     ``sys.unraisablehook`` or ``sys.excepthook``. The open or read still fails
-    and is reported as a DataError; only the stray print is dropped.
+    and is reported as a DataError; only the stray print is dropped. The hooks
+    are swapped by the first user and restored by the last, so threads reading
+    at the same time never leave the filter installed.
     """
-    previous_unraisable, previous_except = sys.unraisablehook, sys.excepthook
-
-    def unraisable_hook(unraisable):
-        if not isinstance(unraisable.exc_value, UnicodeDecodeError):
-            previous_unraisable(unraisable)
-
-    def except_hook(kind, value, tb):
-        if not isinstance(value, UnicodeDecodeError):
-            previous_except(kind, value, tb)
-
-    sys.unraisablehook, sys.excepthook = unraisable_hook, except_hook
+    global _hook_users, _saved_hooks
+    with _hook_lock:
+        if _hook_users == 0:
+            _saved_hooks = (sys.unraisablehook, sys.excepthook)
+            sys.unraisablehook, sys.excepthook = _filtered_hooks(*_saved_hooks)
+        _hook_users += 1
     try:
         yield
     finally:
-        sys.unraisablehook, sys.excepthook = previous_unraisable, previous_except
+        with _hook_lock:
+            _hook_users -= 1
+            if _hook_users == 0:
+                sys.unraisablehook, sys.excepthook = _saved_hooks
+
+
+def _filtered_hooks(unraisable_hook, except_hook):
+    def unraisable(info):
+        if not isinstance(info.exc_value, UnicodeDecodeError):
+            unraisable_hook(info)
+
+    def excepthook(kind, value, tb):
+        if not isinstance(value, UnicodeDecodeError):
+            except_hook(kind, value, tb)
+
+    return unraisable, excepthook
 
 
 def _horizontal_part(crs):
