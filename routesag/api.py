@@ -87,7 +87,16 @@ def check_destination(project: Project) -> None:
     """Refuse an output over an input file or into a missing folder, before any work is done."""
     out = project.output_path
     inputs = {p.resolve() for p in project.input_paths().values()}
-    if out.resolve() in inputs:
+    if out.resolve() in inputs or any(_is_hard_link(out, p) for p in inputs):
         raise OutputError(f"output {out} is one of the input files; choose another output path")
     if not out.parent.is_dir():
         raise OutputError(f"output folder {out.parent} does not exist")
+    if out.is_dir():
+        raise OutputError(f"output {out} is a folder; give a .gpkg file path")
+
+
+def _is_hard_link(a: Path, b: Path) -> bool:
+    try:
+        return a.exists() and b.exists() and a.samefile(b)
+    except OSError:
+        return False

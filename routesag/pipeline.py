@@ -21,10 +21,10 @@ log = logging.getLogger("routesag")
 ENTRY_POINT_GROUP = "routesag.stages"
 
 # The built-in chain, in a valid order; the runner re-orders by requires/provides anyway.
-DEFAULT_CHAIN = ("read_inputs", "build_spans", "solve_tensions", "compute_structure_loads", "build_conductors",
-                 "sample_terrain", "read_crossings", "classify_stations", "sample_surface", "check_clearance",
-                 "find_unknowns", "find_hotspots", "check_tension_limits", "build_sag_table",
-                 "assemble_layers", "write_geopackage")
+DEFAULT_CHAIN = ("read_inputs", "build_spans", "check_spans", "solve_tensions", "compute_structure_loads",
+                 "build_conductors", "check_sags", "sample_terrain", "read_crossings", "classify_stations",
+                 "sample_surface", "check_clearance", "find_unknowns", "find_hotspots", "check_tension_limits",
+                 "build_sag_table", "assemble_layers", "write_geopackage")
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)

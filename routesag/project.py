@@ -20,6 +20,8 @@ from routesag.physics.clearance_rules import (
 )
 
 REQUIRED = object()
+#: Highest credible conductor attachment above ground [m]; more is a unit or typing error.
+MAX_ATTACH_HEIGHT_M = 200.0
 
 
 @dataclass(frozen=True)
@@ -42,6 +44,12 @@ def non_negative(value):
     return None if value >= 0 else "must be >= 0"
 
 
+def up_to(high):
+    def check(value):
+        return None if 0 < value <= high else f"must be > 0 and <= {high:g}"
+    return check
+
+
 def one_of(*choices):
     def check(value):
         return None if value in choices else f"must be one of {', '.join(map(repr, choices))}"
@@ -52,6 +60,22 @@ def text_list(value):
     if not value:
         return "must name at least one entry"
     return None if all(isinstance(v, str) and v for v in value) else "must be a list of names (text)"
+
+
+def crs_text(value):
+    from pyproj import CRS  # lazy: reading a project file needs no GIS stack otherwise
+    from pyproj.exceptions import CRSError
+
+    try:
+        CRS.from_user_input(value)
+    except CRSError:
+        return "is not a CRS PROJ knows (give e.g. 'EPSG:32633')"
+    return None
+
+
+def list_of_text(value):
+    bad = [item for item in value if not isinstance(item, str)]
+    return f"must list stage names as text (not {bad[0]!r})" if bad else None
 
 
 NUMBER = (int, float)
@@ -73,7 +97,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "structures": Key(str, doc="structures layer: any vector source GDAL reads, or CSV with x, y"),
         "structures_layer": Key(str, None, doc="layer name inside a multi-layer source"),
         "terrain": Key(str, doc="single-band elevation raster [m]"),
-        "crs": Key(str, None, doc="CRS of the structures when the source has none (CSV)"),
+        "crs": Key(str, None, crs_text, doc="CRS of the structures when the source has none (CSV)"),
         "terrain_z_units": Key(str, "m", one_of("m", "ft", "ftUS"), "vertical unit of the terrain"),
         "crossings": Key(str, None, doc="crossings layer: lines or polygons with a category field"),
         "crossings_layer": Key(str, None, doc="layer name inside a multi-layer crossings source"),
@@ -82,7 +106,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
                               "surface raster holds elevations (DSM) or heights above the terrain"),
     },
     "line": {
-        "attach_height_m": Key(NUMBER, None, positive,
+        "attach_height_m": Key(NUMBER, None, up_to(MAX_ATTACH_HEIGHT_M),
                                "attachment height above ground for structures without attach_height_m [m]"),
     },
     "conductor": {
@@ -160,7 +184,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "path": Key(str, "results.gpkg", doc="GeoPackage to write"),
     },
     "pipeline": {
-        "stages": Key(list, [], doc="stages to add to (or replace in) the built-in chain"),
+        "stages": Key(list, [], list_of_text, doc="stages to add to (or replace in) the built-in chain"),
     },
 }
 

@@ -14,13 +14,14 @@ import numpy as np
 import pandas as pd
 import pyogrio
 from pyproj import CRS
+from pyproj.exceptions import CRSError, ProjError
 
 from routesag.errors import DataError
+from routesag.project import MAX_ATTACH_HEIGHT_M
 
 REQUIRED_FIELDS = ("structure_id", "seq")
 OPTIONAL_FIELDS = ("line_id", "kind", "attach_height_m", "ground_z_m", "insulator_m")
 KINDS = ("suspension", "strain")
-MAX_ATTACH_HEIGHT_M = 200.0
 DEFAULT_LINE_ID = "line"
 
 
@@ -47,15 +48,38 @@ def read_structures_file(path, layer=None, crs=None) -> gpd.GeoDataFrame:
         raise DataError(f"structures file {path}: cannot be read as a vector dataset ({_short(exc)})") from None
     if layer is not None and layer not in layers:
         raise DataError(f"structures file {path}: no layer {layer!r}; layers: {', '.join(layers) or 'none'}")
+    layer = _default_layer(path, layers) if layer is None else layer
     try:
         gdf = pyogrio.read_dataframe(path, layer=layer)
     except Exception as exc:
         raise DataError(f"structures file {path}: cannot be read ({_short(exc)})") from None
     if not isinstance(gdf, gpd.GeoDataFrame) or gdf.geometry is None:
-        raise DataError(f"structures file {path}: layer has no geometry; expected points")
+        raise DataError(f"structures file {path}: layer {layer!r} has no geometry; expected points")
+    if len(gdf) == 0:
+        raise DataError(f"structures file {path}: layer {layer!r} is empty (no features)")
     if gdf.crs is None and crs:
-        gdf = gdf.set_crs(crs)
+        gdf = _set_crs(gdf, crs, path)
     return gdf
+
+
+def _default_layer(path, layers) -> str:
+    """The only layer, or the one called ``structures``; several others need a name."""
+    if len(layers) == 1:
+        return layers[0]
+    if "structures" in layers:
+        return "structures"
+    if not layers:
+        raise DataError(f"structures file {path}: holds no layers")
+    raise DataError(f"structures file {path}: holds {len(layers)} layers ({', '.join(layers)}); "
+                    "name the structures layer with [inputs] structures_layer")
+
+
+def _set_crs(gdf, crs, path):
+    try:
+        return gdf.set_crs(crs)
+    except CRSError:
+        raise DataError(f"structures file {path}: [inputs] crs = {crs!r} is not a CRS PROJ knows "
+                        "(give e.g. 'EPSG:32633')") from None
 
 
 def _read_csv(path: Path, crs) -> gpd.GeoDataFrame:
@@ -72,7 +96,7 @@ def _read_csv(path: Path, crs) -> gpd.GeoDataFrame:
     if bad:
         raise DataError([f"structures file {path}: row {i + 1}: x/y must be numbers" for i in bad])
     geometry = gpd.points_from_xy(df["x"].astype(float), df["y"].astype(float))
-    return gpd.GeoDataFrame(df.drop(columns=["x", "y"]), geometry=geometry, crs=crs)
+    return _set_crs(gpd.GeoDataFrame(df.drop(columns=["x", "y"]), geometry=geometry), crs, path)
 
 
 def _short(exc: Exception) -> str:
@@ -232,8 +256,34 @@ def working_crs(crs: CRS, lon_lat_center=None) -> tuple[CRS, str]:
     return utm, f"structures CRS {crs.to_string()} is {why}: reprojected to {utm.to_string()} (UTM zone {zone})"
 
 
-def to_working_crs(gdf: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFrame, CRS, str]:
-    """Reproject structures to a projected metre CRS (see :func:`working_crs`)."""
-    center = gdf.to_crs(4326).geometry.union_all().centroid
+def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, CRS, str]:
+    """Reproject structures to a projected metre CRS (see :func:`working_crs`).
+
+    A local (engineering) grid in metres cannot be placed on earth and is used
+    as is; the terrain must then be in the same grid.
+
+    Raises
+    ------
+    DataError
+        Coordinates that cannot be placed on the earth in their CRS (e.g. a
+        latitude beyond 90 degrees: projected coordinates read as lat/lon), or
+        a CRS that cannot be transformed to lat/lon.
+    """
+    crs = CRS(gdf.crs)
+    if crs.is_engineering and crs.axis_info and crs.axis_info[0].unit_name in ("metre", "meter"):
+        return gdf, crs, f"structures CRS {crs.name!r} is a local grid in metres: used as is"
+    try:
+        lon_lat = gdf.to_crs(4326)
+    except (CRSError, ProjError) as exc:
+        raise DataError(f"structures file {source}: CRS {crs.name!r} cannot be transformed to lat/lon "
+                        f"({_short(exc)}); reproject the layer to a projected CRS in metres") from None
+    lon, lat = lon_lat.geometry.x.to_numpy(), lon_lat.geometry.y.to_numpy()
+    bad = ~(np.isfinite(lon) & np.isfinite(lat) & (np.abs(lat) <= 90.0) & (np.abs(lon) <= 180.0))
+    if bad.any():
+        raise DataError([f"structures file {source}: structure {sid}: coordinates "
+                         f"({x:.6g}, {y:.6g}) are not a place on earth in CRS {CRS(gdf.crs).to_string()}; "
+                         "check the CRS (projected metres read as degrees?)"
+                         for sid, x, y in zip(gdf.loc[bad, "structure_id"], gdf.geometry.x[bad], gdf.geometry.y[bad])])
+    center = lon_lat.geometry.union_all().centroid
     crs, note = working_crs(gdf.crs, (center.x, center.y))
     return (gdf if CRS(gdf.crs) == crs else gdf.to_crs(crs)), crs, note

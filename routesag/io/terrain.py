@@ -5,7 +5,10 @@ block that covers the points asked for, so a country-wide DTM costs no more
 memory than the few hundred cells under one span.
 """
 
+import contextlib
 import math
+import sys
+import threading
 from pathlib import Path
 
 import numpy as np
@@ -105,7 +108,7 @@ class TerrainSampler:
             self._env.__exit__(None, None, None)
             raise
         try:
-            self._crs = pyproj.CRS.from_wkt(self._ds.crs.to_wkt())
+            self._crs = _parse_crs(self._path, self._ds)
             self._horizontal_crs = _horizontal_part(self._crs)
             scale, offset = self._ds.scales[0], self._ds.offsets[0]
             self._scale = 1.0 if scale is None else float(scale)
@@ -280,8 +283,13 @@ class TerrainSampler:
             return x, y
         transformer = self._transformers.get(source)
         if transformer is None:
-            transformer = pyproj.Transformer.from_crs(
-                _horizontal_part(source), self._horizontal_crs, always_xy=True)
+            try:
+                transformer = pyproj.Transformer.from_crs(
+                    _horizontal_part(source), self._horizontal_crs, always_xy=True)
+            except pyproj.exceptions.ProjError as exc:
+                raise DataError(f"terrain {self._path}: points in CRS {source.name!r} cannot be transformed "
+                                f"to the raster CRS {self._crs.name!r} ({_first_line(exc)}); give both "
+                                "inputs CRSs that PROJ can relate") from None
             self._transformers[source] = transformer
         xt, yt = transformer.transform(x, y)
         xt, yt = np.asarray(xt, dtype=np.float64), np.asarray(yt, dtype=np.float64)
@@ -346,15 +354,19 @@ class TerrainSampler:
     # -- raw reads --------------------------------------------------------------------
     def _read(self, window):
         """Window read as float64 metres, NaN where masked."""
-        if self._mask_from_nodata:
-            # Comparing with nodata here is ~100x faster than GDAL's masked read.
-            z = self._ds.read(1, window=window).astype(np.float64)
-            nodata = self._ds.nodata
-            if nodata is not None and not np.isnan(nodata):
-                z[z == nodata] = np.nan
-        else:
-            data = self._ds.read(1, window=window, masked=True)
-            z = np.ma.filled(data.astype(np.float64), np.nan)
+        try:
+            with _quiet_undecodable_gdal_messages():
+                if self._mask_from_nodata:
+                    # Comparing with nodata here is ~100x faster than GDAL's masked read.
+                    z = self._ds.read(1, window=window).astype(np.float64)
+                else:
+                    z = np.ma.filled(self._ds.read(1, window=window, masked=True).astype(np.float64), np.nan)
+        except (rasterio.errors.RasterioError, UnicodeDecodeError) as exc:
+            raise DataError(f"terrain {self._path}: cells of window {window} cannot be read, the file "
+                            f"may be truncated or corrupt ({_first_line(exc)})") from None
+        nodata = self._ds.nodata
+        if self._mask_from_nodata and nodata is not None and not np.isnan(nodata):
+            z[z == nodata] = np.nan
         self.sample_window_count += 1
         self.last_window = window
         return (z * self._scale + self._offset) * self.z_factor
@@ -382,10 +394,14 @@ class TerrainSampler:
 
 def _open_single_band(path):
     """Open the raster and check it has a CRS and one band; DataError if not."""
+    if not path.is_file():
+        raise DataError(f"terrain {path} cannot be opened: file not found"
+                        + (" (it is a folder)" if path.is_dir() else ""))
     try:
-        ds = rasterio.open(path)
-    except (rasterio.errors.RasterioIOError, OSError) as exc:
-        raise DataError(f"terrain {path} cannot be opened as a raster: {exc}") from exc
+        with _quiet_undecodable_gdal_messages():
+            ds = rasterio.open(path)
+    except (rasterio.errors.RasterioError, OSError, UnicodeDecodeError) as exc:
+        raise DataError(f"terrain {path} cannot be opened as a raster: {_first_line(exc)}") from None
     problem = None
     if ds.crs is None or not ds.crs.to_wkt():
         problem = f"terrain {path} has no CRS"
@@ -395,6 +411,62 @@ def _open_single_band(path):
         ds.close()
         raise DataError(problem)
     return ds
+
+
+def _parse_crs(path, ds):
+    """The raster CRS as :class:`pyproj.CRS`; DataError when PROJ cannot read it."""
+    try:
+        return pyproj.CRS.from_wkt(ds.crs.to_wkt())
+    except (pyproj.exceptions.CRSError, rasterio.errors.RasterioError) as exc:
+        raise DataError(f"terrain {path} has a CRS that cannot be understood: {_first_line(exc)}") from None
+
+
+def _first_line(exc):
+    text = str(exc).strip()
+    return text.splitlines()[0][:200] if text else type(exc).__name__
+
+
+_hook_lock = threading.Lock()
+_hook_users = 0
+_saved_hooks = None
+
+
+@contextlib.contextmanager
+def _quiet_undecodable_gdal_messages():
+    """Keep GDAL messages that are not UTF-8 (bytes of a corrupt file) from printing a traceback.
+
+    rasterio decodes every GDAL message in a callback; a message quoting binary
+    content fails to decode there, and Python prints that failure through
+    ``sys.unraisablehook`` or ``sys.excepthook``. The open or read still fails
+    and is reported as a DataError; only the stray print is dropped. The hooks
+    are swapped by the first user and restored by the last, so threads reading
+    at the same time never leave the filter installed.
+    """
+    global _hook_users, _saved_hooks
+    with _hook_lock:
+        if _hook_users == 0:
+            _saved_hooks = (sys.unraisablehook, sys.excepthook)
+            sys.unraisablehook, sys.excepthook = _filtered_hooks(*_saved_hooks)
+        _hook_users += 1
+    try:
+        yield
+    finally:
+        with _hook_lock:
+            _hook_users -= 1
+            if _hook_users == 0:
+                sys.unraisablehook, sys.excepthook = _saved_hooks
+
+
+def _filtered_hooks(unraisable_hook, except_hook):
+    def unraisable(info):
+        if not isinstance(info.exc_value, UnicodeDecodeError):
+            unraisable_hook(info)
+
+    def excepthook(kind, value, tb):
+        if not isinstance(value, UnicodeDecodeError):
+            except_hook(kind, value, tb)
+
+    return unraisable, excepthook
 
 
 def _horizontal_part(crs):

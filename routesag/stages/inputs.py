@@ -18,20 +18,44 @@ class ReadInputs(Stage):
     def run(self, data, ctx):
         project = data["project"]
         source = project.structures_path
-        raw = read_structures_file(source, project.structures_layer, project.structures_crs)
-        structures = check_structures(raw, source, project.attach_height_m)
-        structures, crs, note = to_working_crs(structures)
-        ctx.notes["crs"] = crs.to_string()
-        ctx.notes["crs_note"] = note
-        terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units)
+        structures, terrain = read_and_check(project)
         try:
+            structures, crs, note = to_working_crs(structures, source)
             structures = locate_attachments(structures, terrain, source)
-        except Exception:
+        except BaseException:
             terrain.close()
             raise
+        ctx.notes["crs"] = crs.to_string()
+        ctx.notes["crs_note"] = note
         ctx.notes["terrain_crs"] = terrain.crs.to_string()
         ctx.notes["terrain_z_note"] = terrain.z_unit_note
         return {"structures": structures, "terrain": terrain, "work_crs": crs}
+
+
+def read_and_check(project):
+    """Checked structures and the open terrain; problems of both are reported together.
+
+    Raises
+    ------
+    DataError
+        Every problem found in the structures and in the terrain, so a bad
+        field and a missing raster are fixed in one round.
+    """
+    problems, structures, terrain = [], None, None
+    try:
+        raw = read_structures_file(project.structures_path, project.structures_layer, project.structures_crs)
+        structures = check_structures(raw, project.structures_path, project.attach_height_m)
+    except DataError as exc:
+        problems.extend(exc.problems)
+    try:
+        terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units)
+    except DataError as exc:
+        problems.extend(exc.problems)
+    if problems:
+        if terrain is not None:
+            terrain.close()
+        raise DataError(problems)
+    return structures, terrain
 
 
 def locate_attachments(structures, terrain, source):
@@ -45,9 +69,12 @@ def locate_attachments(structures, terrain, source):
         ground[need] = terrain.sample(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs)
     missing = np.isnan(ground)
     if missing.any():
+        inside = terrain.contains(s["x"].to_numpy()[missing], s["y"].to_numpy()[missing], crs=s.crs)
         raise DataError([f"structures file {source}: structure {sid}: no ground_z_m and the terrain "
-                         f"{terrain.path} has no elevation there (outside the raster or over nodata)"
-                         for sid in s.loc[missing, "structure_id"]])
+                         f"{terrain.path} has no elevation there "
+                         f"({'over nodata' if is_inside else 'outside the raster'}); survey its ground_z_m "
+                         "or extend the terrain"
+                         for sid, is_inside in zip(s.loc[missing, "structure_id"], inside)])
     s["ground_z_m"] = ground
     s["attach_z_m"] = ground + s["attach_height_m"].to_numpy(dtype=float)
     return s

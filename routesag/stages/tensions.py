@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from routesag.errors import InputError, SolveError
+from routesag.errors import InputError, ProjectError, SolveError
 from routesag.physics.catenary import support_tensions
 from routesag.physics.conductor3d import swung_span
 from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_load
@@ -37,14 +37,24 @@ class SolveTensions(Stage):
     def run(self, data, ctx):
         project = data["project"]
         by_wire = dict(tuple(data["wire_spans"].groupby(["section_id", "wire"], sort=False)))
-        rows = []
+        for wire in {w.name: w for _, s in data["sections"].iterrows()
+                     for w in project.line_wires(s["line_id"])}.values():
+            if not wire.stringing.from_limits:
+                # a bad stringing tension is one problem, not one per section
+                stringing_tension_n(project, wire.conductor, wire.stringing)
+        rows, problems = [], []
         for _, section in data["sections"].iterrows():
             for wire in project.line_wires(section["line_id"]):
                 spans = by_wire[(section["section_id"], wire.name)]
                 own = section.copy()
                 own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]  # the wire's own spans
-                rows += [dict(row, wire=wire.name)
-                         for row in section_tensions(own, project, wire.conductor, wire.stringing, spans)]
+                try:
+                    rows += [dict(row, wire=wire.name)
+                             for row in section_tensions(own, project, wire.conductor, wire.stringing, spans)]
+                except SolveError as exc:  # report every section, wire and case that fails, together
+                    problems.extend(exc.problems)
+        if problems:
+            raise SolveError(problems)
         return {"tensions": pd.DataFrame(rows)}
 
 
@@ -70,7 +80,7 @@ def stringing_tension_n(project, conductor=None, stringing=None) -> float:
     stringing = stringing or project.stringing
     tension_n = stringing.horizontal_tension_n(conductor, bare_weight_n_m(conductor.mass_kg_m))
     if tension_n >= conductor.rated_strength_n:
-        raise InputError(f"project file {project.path}: [stringing] tension {tension_n / 1e3:.1f} kN is not "
+        raise ProjectError(f"project file {project.path}: [stringing] tension {tension_n / 1e3:.1f} kN is not "
                          f"below the rated strength {conductor.rated_strength_n / 1e3:.1f} kN")
     return tension_n
 
@@ -97,9 +107,18 @@ def section_tensions(section, project, conductor=None, stringing=None, spans=Non
     cases = project.load_cases
 
     def solve(h0_n, names=None):
-        chosen = [c for c in cases if names is None or c.name in names]
-        return {c.name: solve_case(where, c, h0_n, ruling_m, spans_m, dz_m, conductor, stringing,
-                                   project.ice_density_kg_m3) for c in chosen}
+        states, problems = {}, []
+        for case in cases:
+            if names is not None and case.name not in names:
+                continue
+            try:
+                states[case.name] = solve_case(where, case, h0_n, ruling_m, spans_m, dz_m, conductor, stringing,
+                                               project.ice_density_kg_m3)
+            except SolveError as exc:  # every failing case of the section, together
+                problems.extend(exc.problems)
+        if problems:
+            raise SolveError(problems)
+        return states
 
     design = None
     if stringing.from_limits:

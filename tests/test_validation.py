@@ -1,0 +1,317 @@
+"""Every bad input gets a clear error: one table of cases, run through the API and the CLI.
+
+Each case builds a small survey in tmp_path, spoils one thing, and names the
+error class (checked exactly, not as a subclass) and what the message must say
+(the file, the feature, the field, what was expected). The same table runs
+through ``routesag run``: exit code 2, the message, no traceback, no output.
+"""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Callable
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import pytest
+import shapely
+from click.testing import CliRunner
+
+import routesag
+from routesag.cli import main
+from routesag.errors import DataError, OutputError, ProjectError, SolveError
+from tests.conftest import CRS, X0, Y0, write_plane_raster, write_project, write_structures
+
+XS = [0.0, 300.0, 550.0, 900.0]  # spans 300, 250, 350 m
+KINDS = ["strain", "suspension", "strain", "strain"]
+
+
+def line_xy(xs=XS):
+    return [(X0 + x, Y0 + 200.0) for x in xs]
+
+
+def good_survey(tmp: Path, **project) -> Path:
+    """The conftest survey (terrain plane, 4 structures, 2 tension sections); returns the project file."""
+    write_plane_raster(tmp / "terrain.tif", a=100.0, bx=0.01, cy=0.02)
+    write_structures(tmp / "structures.gpkg", line_xy(), kinds=KINDS)
+    return write_project(tmp, **project)
+
+
+def edit(path: Path, old: str, new: str) -> Path:
+    text = path.read_text()
+    assert old in text, old
+    path.write_text(text.replace(old, new))
+    return path
+
+
+def write_layer(path: Path, columns: dict, geometry, crs=CRS, layer="structures") -> None:
+    gdf = gpd.GeoDataFrame(columns, geometry=geometry, crs=crs)
+    gdf.to_file(path, layer=layer, driver="GPKG")
+
+
+def with_structures(tmp: Path, columns: dict, geometry=None, crs=CRS, **project) -> Path:
+    """Good terrain and project; the structures layer built from ``columns``."""
+    project_path = good_survey(tmp, **project)
+    n = len(next(iter(columns.values())))
+    geometry = shapely.points(np.asarray(line_xy(XS[:n]))) if geometry is None else geometry
+    write_layer(tmp / "structures.gpkg", columns, geometry, crs)
+    return project_path
+
+
+def heights(value):
+    return lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                             "attach_height_m": [20.0, value, 20.0]})
+
+
+def stringing(line):
+    return lambda tmp: edit(good_survey(tmp), "horizontal_tension_kn = 30.0", line)
+
+
+def local_grid(unit: str, metres: float) -> str:
+    """An engineering (site) CRS: planar coordinates that PROJ cannot place on earth."""
+    return (f'ENGCRS["site grid",EDATUM["site"],CS[Cartesian,2],AXIS["x",east,LENGTHUNIT["{unit}",{metres}]],'
+            f'AXIS["y",north,LENGTHUNIT["{unit}",{metres}]]]')
+
+
+def several_layers(tmp: Path) -> Path:
+    """A GeoPackage holding a 'poles' point layer and a 'towers' attribute table, no 'structures'."""
+    project = good_survey(tmp)
+    path = tmp / "structures.gpkg"
+    path.unlink()
+    write_layer(path, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                shapely.points(np.asarray(line_xy(XS[:2]))), layer="poles")
+    pyogrio.write_dataframe(pd.DataFrame({"structure_id": ["P1"], "seq": [1]}), path, layer="towers")
+    return project
+
+
+def bad_field_and_missing_terrain(tmp: Path) -> Path:
+    project = with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2], "kind": ["strain", "anchor"]})
+    return edit(project, 'terrain = "terrain.tif"', 'terrain = "gone.tif"')
+
+
+@dataclass
+class Case:
+    id: str
+    build: Callable[[Path], Path]   # makes the spoilt survey in tmp_path; returns the project file
+    error: type
+    match: tuple[str, ...]          # regexes the message must contain
+
+
+CASES = [
+    # -- files and layers ------------------------------------------------------------------------------------
+    Case("project file missing", lambda tmp: tmp / "nowhere.toml", ProjectError,
+         (r"project file .*nowhere\.toml: not found",)),
+    Case("structures file missing", lambda tmp: good_survey(tmp, structures="nope.gpkg"), DataError,
+         (r"structures file .*nope\.gpkg: not found",)),
+    Case("structures file unreadable",
+         lambda tmp: (good_survey(tmp), (tmp / "structures.gpkg").write_bytes(b"\x00junk" * 99))[0],
+         DataError, (r"structures file .*structures\.gpkg: cannot be read",)),
+    Case("terrain file missing", lambda tmp: good_survey(tmp, terrain="nope.tif"), DataError,
+         (r"terrain .*nope\.tif cannot be opened: file not found",)),
+    Case("terrain file unreadable",
+         lambda tmp: (good_survey(tmp), (tmp / "terrain.tif").write_bytes(b"II*\x00garbage" * 40))[0],
+         DataError, (r"terrain .*terrain\.tif cannot be opened as a raster",)),
+    Case("unknown layer lists the layers",
+         lambda tmp: edit(good_survey(tmp), 'terrain = "terrain.tif"',
+                          'terrain = "terrain.tif"\nstructures_layer = "towers"'),
+         DataError, (r"structures\.gpkg: no layer 'towers'; layers: structures",)),
+    Case("several layers and none named", several_layers, DataError,
+         (r"structures\.gpkg: holds 2 layers \(poles, towers\); name the structures layer with "
+          r"\[inputs\] structures_layer",)),
+    Case("layer without geometry",
+         lambda tmp: edit(several_layers(tmp), 'terrain = "terrain.tif"',
+                          'terrain = "terrain.tif"\nstructures_layer = "towers"'),
+         DataError, (r"structures\.gpkg: layer 'towers' has no geometry; expected points",)),
+    Case("empty layer",
+         lambda tmp: with_structures(tmp, {"structure_id": pd.Series([], dtype=str),
+                                           "seq": pd.Series([], dtype=float)}, gpd.GeoSeries([], crs=CRS)),
+         DataError, (r"structures\.gpkg: layer 'structures' is empty",)),
+    Case("non-point geometry",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                                     [shapely.LineString([(X0, Y0), (X0 + 1, Y0)]),
+                                      shapely.LineString([(X0 + 300, Y0), (X0 + 301, Y0)])]),
+         DataError, (r"structure P1 \(row 1\): geometry is LineString; expected Point",
+                     r"structure P2 \(row 2\): geometry is LineString")),
+    # -- fields ----------------------------------------------------------------------------------------------
+    Case("missing required field suggests the near name",
+         lambda tmp: with_structures(tmp, {"structureid": ["P1", "P2"], "seq": [1, 2]}),
+         DataError, (r"structures\.gpkg: missing required field 'structure_id' \(found 'structureid': "
+                     r"rename it to 'structure_id'\)",)),
+    Case("duplicate structure_id in a line",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P1"], "seq": [1, 2, 3]}),
+         DataError, (r"line line: structure_id 'P1' appears more than once",)),
+    Case("duplicate seq",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 2]}),
+         DataError, (r"line line: seq 2 is used by structure P2 \(row 2\), structure P3 \(row 3\)",)),
+    Case("non-numeric seq",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": ["1", "two", "3"]}),
+         DataError, (r"structure P2 \(row 2\): field 'seq' = 'two' is not a number",)),
+    Case("line with one structure",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "Q1"], "seq": [1, 2, 1],
+                                           "line_id": ["A", "A", "B"]}),
+         DataError, (r"line B has only one structure \(structure Q1 \(row 3\)\); a line needs at least two",)),
+    Case("two structures at the same spot",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3]},
+                                     shapely.points(np.asarray(line_xy([0.0, 0.0, 300.0])))),
+         DataError, (r"line line: structures P1 and P2 stand at the same spot \(0\.00 m apart\): "
+                     r"zero-length span",)),
+    Case("negative attach height", heights(-3.0), DataError,
+         (r"structure P2 \(row 2\): field 'attach_height_m' = -3 m; expected 0 < height <= 200 m",)),
+    Case("zero attach height", heights(0.0), DataError,
+         (r"structure P2 \(row 2\): field 'attach_height_m' = 0 m; expected 0 < height <= 200 m",)),
+    Case("absurd attach height", heights(250.0), DataError,
+         (r"structure P2 \(row 2\): field 'attach_height_m' = 250 m; expected 0 < height <= 200 m",)),
+    Case("unknown kind",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2],
+                                           "kind": ["strain", "anchor"]}),
+         DataError, (r"structure P2 \(row 2\): field 'kind' = 'anchor'; expected one of suspension, strain",)),
+    # -- places and CRS --------------------------------------------------------------------------------------
+    Case("structure outside the terrain",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                                     shapely.points(np.asarray(line_xy([0.0, 5000.0])))),
+         DataError, (r"structure P2: no ground_z_m and the terrain .*terrain\.tif has no elevation there "
+                     r"\(outside the raster\)",)),
+    Case("structure over nodata",
+         lambda tmp: (good_survey(tmp),
+                      write_plane_raster(tmp / "terrain.tif", holes=[(95, 110, 245, 260)]))[0],
+         DataError, (r"structure P2: no ground_z_m and the terrain .*terrain\.tif has no elevation there "
+                     r"\(over nodata\)",)),
+    Case("terrain without CRS",
+         lambda tmp: (good_survey(tmp), write_plane_raster(tmp / "terrain.tif", crs=None))[0],
+         DataError, (r"terrain .*terrain\.tif has no CRS",)),
+    Case("structures without CRS",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]}, crs=None),
+         DataError, (r"structures file .*structures\.gpkg: no CRS; give the layer a CRS or set \[inputs\] crs",)),
+    Case("projected coordinates labelled lat/lon",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]}, crs="EPSG:4326"),
+         DataError, (r"structure P1: coordinates \(500000, 5\.6002e\+06\) are not a place on earth in CRS "
+                     r"EPSG:4326",)),
+    Case("structures in a local grid the terrain cannot relate to",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]}, crs=local_grid("metre", 1)),
+         DataError, (r"terrain .*terrain\.tif: points in CRS 'site grid' cannot be transformed to the raster CRS "
+                     r"'WGS 84 / UTM zone 33N'",)),
+    Case("structures in a local grid in feet",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                                     crs=local_grid("foot", 0.3048)),
+         DataError, (r"structures\.gpkg: CRS 'site grid' cannot be transformed to lat/lon .*reproject the layer",)),
+    Case("CSV without CRS",
+         lambda tmp: (good_survey(tmp, structures="s.csv"),
+                      (tmp / "s.csv").write_text(f"structure_id,seq,x,y\nP1,1,{X0},{Y0}\nP2,2,{X0 + 300},{Y0}\n")
+                      )[0],
+         DataError, (r"s\.csv: a CSV carries no CRS; set \[inputs\] crs",)),
+    Case("unknown CRS name",
+         lambda tmp: edit(good_survey(tmp), 'terrain = "terrain.tif"', 'terrain = "terrain.tif"\ncrs = "UTM33"'),
+         ProjectError, (r"\[inputs\]: crs = 'UTM33' is not a CRS PROJ knows",)),
+    # -- project file ----------------------------------------------------------------------------------------
+    Case("TOML syntax error gives line and column",
+         lambda tmp: edit(good_survey(tmp), "ground_m = 7.5", "ground_m = = 7.5"),
+         ProjectError, (r"project\.toml: TOML syntax error: .*\(at line \d+, column 12\)",)),
+    Case("unknown key suggests the nearest",
+         lambda tmp: edit(good_survey(tmp), "ground_m =", "groundm ="),
+         ProjectError, (r"\[clearance\]: unknown key 'groundm'; did you mean 'ground_m'\?",)),
+    Case("wrong type",
+         lambda tmp: edit(good_survey(tmp), "mass_kg_m = 1.628", 'mass_kg_m = "heavy"'),
+         ProjectError, (r"\[conductor\]: mass_kg_m = 'heavy' has the wrong type: expected a number, got str",)),
+    Case("missing stringing tension", stringing(""), ProjectError,
+         (r"\[stringing\]: give exactly one of horizontal_tension_kn, tension_percent_rts, catenary_m "
+          r"\(found 0\)",)),
+    Case("zero stringing tension", stringing("horizontal_tension_kn = 0.0"), ProjectError,
+         (r"\[stringing\]: horizontal_tension_kn = 0\.0 must be > 0",)),
+    Case("negative stringing tension", stringing("tension_percent_rts = -20.0"), ProjectError,
+         (r"\[stringing\]: tension_percent_rts = -20\.0 must be > 0",)),
+    Case("stringing tension above the rated strength", stringing("horizontal_tension_kn = 150.0"), ProjectError,
+         (r"\[stringing\] tension 150\.0 kN is not below the rated strength 140\.1 kN",)),
+    Case("stringing catenary above the rated strength", stringing("catenary_m = 10000.0"), ProjectError,
+         (r"\[stringing\] tension 159\.7 kN is not below the rated strength 140\.1 kN",)),
+    # Expansion coefficient typed without its exponent (18.9 instead of 18.9e-6): cooling by 35 C would
+    # shrink the wire by 66000 %, which no tension can make up; both tension sections fail in one report.
+    Case("load case the change of state cannot solve",
+         lambda tmp: edit(good_survey(tmp), "expansion_per_c = 18.9e-6", "expansion_per_c = 18.9"),
+         SolveError, (r"tension section A:S1, load case 'cold': change of state cannot be solved",
+                      r"tension section A:S2, load case 'cold': change of state cannot be solved",
+                      r"thermal strain shrinks the wire to nothing")),
+    Case("station spacing zero", lambda tmp: good_survey(tmp, station_m=0.0), ProjectError,
+         (r"\[clearance\]: station_m = 0\.0 must be > 0",)),
+    Case("station spacing larger than the shortest span", lambda tmp: good_survey(tmp, station_m=260.0),
+         ProjectError, (r"\[clearance\] station_m = 260 m is larger than the shortest span A:P2-P3 \(250\.0 m\)",)),
+    Case("station spacing absurdly fine", lambda tmp: good_survey(tmp, station_m=1e-6), ProjectError,
+         (r"\[clearance\] station_m = 1e-06 m asks for 9e\+08 stations per load case \(at most 1e\+07\)",)),
+    Case("absurd default attach height", lambda tmp: good_survey(tmp, attach_height_m=300.0), ProjectError,
+         (r"\[line\]: attach_height_m = 300\.0 must be > 0 and <= 200",)),
+    Case("plugin stage list holds a number",
+         lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "out.gpkg"\n[pipeline]\nstages = [3]'),
+         ProjectError, (r"\[pipeline\]: stages = \[3\] must list stage names as text",)),
+    # -- output ----------------------------------------------------------------------------------------------
+    Case("output over an input file",
+         lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "structures.gpkg"'),
+         OutputError, (r"output .*structures\.gpkg is one of the input files",)),
+    Case("output folder missing",
+         lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "no/such/out.gpkg"'),
+         OutputError, (r"output folder .*no/such does not exist",)),
+    # -- several problems of different files in one report ---------------------------------------------------
+    Case("bad structures field and missing terrain reported together", bad_field_and_missing_terrain,
+         DataError, (r"2 problems found", r"field 'kind' = 'anchor'", r"gone\.tif cannot be opened: file not found")),
+]
+
+
+def idfn(case: Case) -> str:
+    return case.id.replace(" ", "-")
+
+
+@pytest.mark.parametrize("case", CASES, ids=idfn)
+def test_api_raises_the_named_error(case, tmp_path):
+    project = case.build(tmp_path)
+    with pytest.raises(routesag.RoutesagError) as info:
+        routesag.run(project)
+    assert type(info.value) is case.error, f"{type(info.value).__name__}: {info.value}"
+    for pattern in case.match:
+        assert _search(pattern, str(info.value)), f"{pattern!r} not in:\n{info.value}"
+    assert not (tmp_path / "out.gpkg").exists()
+
+
+@pytest.mark.parametrize("case", CASES, ids=idfn)
+def test_cli_exits_2_with_the_message_and_no_traceback(case, tmp_path):
+    project = case.build(tmp_path)
+    result = CliRunner().invoke(main, ["run", str(project)])
+    assert result.exit_code == 2, result.output
+    assert "Traceback" not in result.output
+    for pattern in case.match:
+        assert _search(pattern, result.output), f"{pattern!r} not in:\n{result.output}"
+    assert not (tmp_path / "out.gpkg").exists()
+    assert not [p.name for p in tmp_path.iterdir() if ".tmp-" in p.name]
+
+
+def _search(pattern: str, text: str) -> bool:
+    return re.search(pattern, text) is not None
+
+
+def test_every_problem_of_a_layer_in_one_report(tmp_path):
+    """Five spoilt fields in one layer: one run names all five."""
+    project = with_structures(tmp_path, {
+        "structure_id": ["P1", "P2", "P2", "P4"], "seq": [1, "x", 3, 3],
+        "kind": ["strain", "pole", None, None], "attach_height_m": [20.0, 20.0, 500.0, 20.0]})
+    with pytest.raises(DataError) as info:
+        routesag.run(project)
+    assert len(info.value.problems) == 5, info.value.problems
+    text = str(info.value)
+    assert text.startswith("5 problems found")
+    for needle in ("field 'seq' = 'x' is not a number", "field 'kind' = 'pole'",
+                   "field 'attach_height_m' = 500 m", "structure_id 'P2' appears more than once",
+                   "seq 3 is used by structure P2 (row 3), structure P4 (row 4)"):
+        assert needle in text
+
+
+def test_every_problem_of_the_project_file_in_one_report(tmp_path):
+    project = good_survey(tmp_path)
+    for old, new in (("ground_m =", "grund_m ="), ("mass_kg_m = 1.628", "mass_kg_m = true"),
+                     ("horizontal_tension_kn = 30.0", "horizontal_tension_kn = -1.0")):
+        edit(project, old, new)
+    with pytest.raises(ProjectError) as info:
+        routesag.run(project)
+    text = str(info.value)
+    assert "unknown key 'grund_m'; did you mean 'ground_m'?" in text
+    assert "mass_kg_m = True has the wrong type: expected a number, got true/false" in text
+    assert "horizontal_tension_kn = -1.0 must be > 0" in text
