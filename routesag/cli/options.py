@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import functools
 import logging
+import sys
 import traceback
 
 import click
@@ -41,6 +42,10 @@ def handle_errors(func):
             raise CommandError(str(exc), exit_code_for(exc)) from None
         except (click.ClickException, click.exceptions.Exit, click.Abort, KeyboardInterrupt):
             raise
+        except BrokenPipeError:
+            # Output piped into a reader that stopped early (`| head`): not an error of the run.
+            sys.stderr.close()
+            raise click.exceptions.Exit(0) from None
         except Exception as exc:
             if logging.getLogger().isEnabledFor(logging.DEBUG):
                 traceback.print_exc()

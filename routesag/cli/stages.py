@@ -7,10 +7,14 @@ from routesag.cli.options import handle_errors
 @click.command("stages")
 @handle_errors
 def stages_command():
-    """List registered pipeline stages (built-in and plugins)."""
+    """List registered pipeline stages: built-in ones in chain order, then plugins."""
     from routesag.pipeline import DEFAULT_CHAIN, available_stages
 
-    for name, stage in sorted(available_stages().items(), key=lambda kv: (kv[0] not in DEFAULT_CHAIN, kv[0])):
+    def chain_order(item):
+        name = item[0]
+        return (0, DEFAULT_CHAIN.index(name), "") if name in DEFAULT_CHAIN else (1, 0, name)
+
+    for name, stage in sorted(available_stages().items(), key=chain_order):
         origin = "built-in" if name in DEFAULT_CHAIN else "plugin"
         click.echo(f"{name}  [{origin}]")
         click.echo(f"    requires: {', '.join(stage.requires) or '-'}")

@@ -110,3 +110,19 @@ def test_quiet_prints_nothing(runner, survey):
 def test_version(runner):
     result = runner.invoke(main, ["--version"])
     assert result.exit_code == 0 and "routesag" in result.output
+
+
+
+def test_output_piped_into_a_reader_that_stops_early_is_not_an_error(runner):
+    """`routesag ... | head -1`: a closed pipe ends the command quietly with exit 0, not "internal error"."""
+    import click
+
+    from routesag.cli.options import handle_errors
+
+    @click.command()
+    @handle_errors
+    def writes_into_closed_pipe():
+        raise BrokenPipeError(32, "Broken pipe")
+
+    result = runner.invoke(writes_into_closed_pipe, [])
+    assert result.exit_code == 0 and "internal error" not in result.output
