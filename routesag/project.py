@@ -15,6 +15,7 @@ from typing import Any, Callable
 
 from routesag.catalog import PROPERTY_FIELDS, close_matches, find_conductor
 from routesag.errors import ProjectError
+from routesag.physics.loads import G
 from routesag.physics.clearance_rules import (
     DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADDER_PER_KV_M, DEFAULT_REQUIRED_M, phase_to_ground_kv, voltage_adder_m,
 )
@@ -437,6 +438,7 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
     if isinstance(raw.get("conductor"), dict):
         settings["conductor"] = _complete_conductor(f"{source}: [conductor]", settings["conductor"], problems)
     _check_stringing(source, settings.get("stringing", {}), problems)
+    _check_stringing_strength(source, settings.get("stringing", {}), settings.get("conductor", {}), problems)
     _check_wires(source, settings.get("wires", []), problems)
     _set_conditions(source, settings, problems)
     _check_limits(source, settings, problems)
@@ -602,6 +604,24 @@ def _check_stringing(source, stringing: dict, problems, label="[stringing]") -> 
         problems.append(f"{source}: {label}: give exactly one of {', '.join(TENSION_KEYS)}"
                         f" (found {len(given)}{': ' + ', '.join(given) if given else ''})"
                         f", or from_limits = true")
+
+
+def _check_stringing_strength(source, stringing: dict, conductor: dict, problems) -> None:
+    """A stringing tension at or above the rated strength, found before any input is read."""
+    rated_kn, mass_kg_m = conductor.get("rated_strength_kn"), conductor.get("mass_kg_m")
+    if rated_kn is None or mass_kg_m is None:
+        return
+    if stringing.get("horizontal_tension_kn") is not None:
+        tension_kn = stringing["horizontal_tension_kn"]
+    elif stringing.get("tension_percent_rts") is not None:
+        tension_kn = stringing["tension_percent_rts"] / 100.0 * rated_kn
+    elif stringing.get("catenary_m") is not None:
+        tension_kn = stringing["catenary_m"] * mass_kg_m * G / 1e3
+    else:
+        return
+    if tension_kn >= rated_kn:
+        problems.append(f"{source}: [stringing] tension {tension_kn:.1f} kN is not below the rated strength "
+                        f"{rated_kn:.1f} kN")
 
 
 def _set_conditions(source, settings: dict, problems) -> None:
