@@ -137,12 +137,7 @@ dz_m = 5.0
 insulated = false
 
 [wires.conductor]
-diameter_mm = 16.31
-area_mm2 = 157.2
-mass_kg_m = 0.5459
-rated_strength_kn = 50.0
-modulus_gpa = 75.0
-expansion_per_c = 18.9e-6
+name = "Partridge"                 # from the conductor catalog: ACSR 266.8 kcmil 26/7
 
 [wires.stringing]
 temperature_c = 15.0

@@ -174,7 +174,10 @@ def test_project_has_three_phases_and_an_earth_wire(survey):
     earth = wires["earth"]
     assert earth["dz_m"] == 5.0 and earth["insulated"] is False
     # Its own, smaller conductor and its own stringing.
-    assert earth["conductor"]["diameter_mm"] < survey["project"]["conductor"]["diameter_mm"]
+    from routesag.catalog import find_conductor
+
+    earth_conductor = find_conductor(earth["conductor"]["name"])  # the demo picks it from the catalog
+    assert earth_conductor.properties()["diameter_mm"] < survey["project"]["conductor"]["diameter_mm"]
     assert set(earth["stringing"]) == {"temperature_c", "tension_percent_rts"}
 
 
