@@ -2,7 +2,6 @@
 import math
 
 import geopandas as gpd
-import numpy as np
 import pytest
 import shapely
 

@@ -10,7 +10,7 @@ from pyproj import Transformer
 from rasterio.transform import from_origin
 
 import routesag
-from routesag.errors import DataError, SolveError
+from routesag.errors import DataError
 from tests.conftest import CRS, X0, Y0, write_plane_raster, write_project, write_structures
 
 LAYERS = {

@@ -1,5 +1,4 @@
 """Project file parsing and validation."""
-from pathlib import Path
 
 import pytest
 
@@ -58,7 +57,7 @@ def test_all_problems_reported_together(survey):
 def test_exactly_one_stringing_tension(keys, found):
     stringing = {"temperature_c": 15.0, **{k: 1.0 for k in keys}}
     _, problems = validate_settings({"stringing": stringing})
-    assert any(f"give exactly one of" in p and f"found {found}" in p for p in problems)
+    assert any("give exactly one of" in p and f"found {found}" in p for p in problems)
 
 
 def test_duplicate_load_case_names():

@@ -3,7 +3,6 @@ import math
 
 import pytest
 
-from routesag.errors import ProjectError
 from routesag.project import load_project, validate_settings
 
 CASES = [{"name": "hot", "temperature_c": 90}, {"name": "ice", "temperature_c": 0, "ice_mm": 12.5}]

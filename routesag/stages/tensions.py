@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from routesag.errors import InputError, ProjectError, SolveError
+from routesag.errors import ProjectError, SolveError
 from routesag.physics.catenary import support_tensions
 from routesag.physics.conductor3d import swung_span
 from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_load

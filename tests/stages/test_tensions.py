@@ -64,7 +64,7 @@ def drake_700ft(tmp_path):
     cases = [
         f'name = "heavy_0f"\ntemperature_c = {fahrenheit(0.0)}\nice_mm = 12.7\nwind_pa = {4 * PSF}\n'
         f'constant_n_m = {0.30 * LB_FT}',
-        f'name = "iced_32f"\ntemperature_c = 0.0\nice_mm = 12.7',
+        'name = "iced_32f"\ntemperature_c = 0.0\nice_mm = 12.7',
         f'name = "bare_120f"\ntemperature_c = {fahrenheit(120.0)}',
     ]
     project = project_file(tmp_path, stringing, cases)

@@ -1,0 +1,105 @@
+"""The TOML project file: parsing, defaults and validation with clear messages.
+
+A project file is checked against :data:`SCHEMA` (``schema.py``) in one pass
+(``validation.py``); every problem found is reported together, each naming the
+file, the table and the key. Unknown keys are errors that suggest the nearest
+valid key. The result is a :class:`Project` (``model.py``) in SI units.
+"""
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+
+from routesag.errors import ProjectError
+from routesag.project.model import (
+    ClearanceRules, Conductor, LoadCase, Project, Stringing, TensionLimit, Wire,
+)
+from routesag.project.schema import MAX_ATTACH_HEIGHT_M, REQUIRED, SCHEMA, TENSION_KEYS, Key
+from routesag.project.validation import _conductor_from, _wire_label, resolve_conductor, validate_settings
+
+__all__ = [
+    "load_project", "validate_settings", "resolve_conductor", "SCHEMA", "Key", "REQUIRED", "TENSION_KEYS",
+    "MAX_ATTACH_HEIGHT_M", "Project", "Conductor", "LoadCase", "Stringing", "TensionLimit", "Wire",
+    "ClearanceRules",
+]
+
+
+def load_project(path, output=None) -> Project:
+    """Read and validate a project file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML project file.
+    output : str or Path, optional
+        Overrides ``[output] path``.
+
+    Raises
+    ------
+    ProjectError
+        With every problem found, each naming the file, table and key.
+    """
+    path = Path(path)
+    raw = _read_toml(path)
+    settings, problems = validate_settings(raw, source=str(path))
+    if problems:
+        raise ProjectError(problems)
+    return _build_project(path, settings, output)
+
+
+def _read_toml(path: Path) -> dict:
+    if not path.is_file():
+        raise ProjectError(f"project file {path}: not found")
+    try:
+        with path.open("rb") as fh:
+            return tomllib.load(fh)
+    except tomllib.TOMLDecodeError as exc:
+        raise ProjectError(f"project file {path}: TOML syntax error: {exc}") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ProjectError(f"project file {path}: cannot be read: {exc}") from None
+
+
+def _build_project(path: Path, s: dict, output) -> Project:
+    base = path.parent
+    conductor = _conductor_from(s["conductor"])
+    stringing = Stringing(**s["stringing"])
+    load_cases = [LoadCase(name=e["name"], temperature_c=e["temperature_c"], ice_m=e["ice_mm"] / 1e3,
+                           wind_pa=e["wind_pa"], constant_n_m=e["constant_n_m"], wind_side=e["wind_side"],
+                           condition=e["condition"])
+                  for e in s["load_cases"]]
+    out = Path(output) if output is not None else base / s["output"]["path"]
+    inputs = s["inputs"]
+    return Project(
+        path=path.resolve(), structures_path=(base / s["inputs"]["structures"]).resolve(),
+        structures_layer=s["inputs"]["structures_layer"], terrain_path=(base / s["inputs"]["terrain"]).resolve(),
+        structures_crs=s["inputs"]["crs"], terrain_z_units=s["inputs"]["terrain_z_units"],
+        attach_height_m=s["line"]["attach_height_m"], conductor=conductor,
+        stringing=stringing, load_cases=load_cases,
+        ground_clearance_m=s["clearance"]["required_m"]["ground"], station_m=s["clearance"]["station_m"],
+        ice_density_kg_m3=s["loads"]["ice_density_kg_m3"], output_path=out.resolve(),
+        pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
+        wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],
+        insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"],
+        limits=[TensionLimit(**e) for e in s["limits"]],
+        crossings_path=None if inputs["crossings"] is None else (base / inputs["crossings"]).resolve(),
+        crossings_layer=inputs["crossings_layer"],
+        surface_path=None if inputs["surface"] is None else (base / inputs["surface"]).resolve(),
+        surface_values=inputs["surface_values"], clearance=_clearance_rules(s["clearance"]))
+
+
+def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, stringing: Stringing) -> Wire:
+    """A :class:`Wire`; without its own tables it takes the line's conductor and stringing."""
+    own = entry["conductor"]
+    return Wire(
+        name=entry["name"], offset_m=entry["offset_m"], dz_m=entry["dz_m"], insulated=entry["insulated"],
+        conductor=conductor if own is None else resolve_conductor(own, f"{path}: {_wire_label(index, entry)} "
+                                                                        "conductor"),
+        stringing=stringing if entry["stringing"] is None else Stringing(**entry["stringing"]))
+
+
+def _clearance_rules(c: dict) -> ClearanceRules:
+    return ClearanceRules(
+        base_m=dict(c["required_m"]), voltage_kv=c["voltage_kv"], max_voltage_kv=c["max_voltage_kv"],
+        adder_per_kv_m=c["adder"]["per_kv_m"], adder_above_kv=c["adder"]["above_kv"],
+        cases=None if c["cases"] is None else tuple(c["cases"]), hotspot_merge_m=c["hotspot_merge_m"],
+        surface_min_height_m=c["surface_min_height_m"], crossing_width_m=c["crossing_width_m"])

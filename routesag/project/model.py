@@ -1,0 +1,193 @@
+"""A validated project as dataclasses, every value in SI units."""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from routesag.physics.clearance_rules import (
+    DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADDER_PER_KV_M, DEFAULT_REQUIRED_M, phase_to_ground_kv, voltage_adder_m,
+)
+
+
+@dataclass(frozen=True)
+class Conductor:
+    """Conductor properties in SI units."""
+
+    diameter_m: float
+    area_m2: float
+    mass_kg_m: float
+    rated_strength_n: float
+    modulus_pa: float
+    expansion_per_c: float
+    name: str = "conductor"
+    source: str = "project file"
+
+
+@dataclass(frozen=True)
+class LoadCase:
+    """One design load case: conductor temperature, ice and wind."""
+
+    name: str
+    temperature_c: float
+    ice_m: float = 0.0
+    wind_pa: float = 0.0
+    constant_n_m: float = 0.0
+    wind_side: str = "right"
+    condition: str = "initial"
+
+    @property
+    def side_sign(self) -> float:
+        return 1.0 if self.wind_side == "right" else -1.0
+
+
+@dataclass(frozen=True)
+class TensionLimit:
+    """Largest tension (as % of rated strength) and/or catenary constant allowed in one load case."""
+
+    load_case: str
+    max_percent_rts: float | None = None
+    max_catenary_m: float | None = None
+    applies_to: str = "horizontal"
+
+    def describe(self) -> str:
+        parts = []
+        if self.max_percent_rts is not None:
+            parts.append(f"{self.max_percent_rts:g} % RTS {self.applies_to}")
+        if self.max_catenary_m is not None:
+            parts.append(f"H/w {self.max_catenary_m:g} m")
+        return " and ".join(parts)
+
+
+@dataclass(frozen=True)
+class Stringing:
+    """The known state of the conductor: temperature and one tension key."""
+
+    temperature_c: float
+    horizontal_tension_kn: float | None = None
+    tension_percent_rts: float | None = None
+    catenary_m: float | None = None
+    creep_allowance_c: float | None = None
+    from_limits: bool = False
+
+    def state_temperature_c(self, temperature_c: float, condition: str) -> float:
+        """Temperature at which the initial state stands for ``condition`` [degC].
+
+        The final (crept) state at T is the initial state at T + creep allowance.
+        """
+        if condition == "final":
+            return temperature_c + (self.creep_allowance_c or 0.0)
+        return temperature_c
+
+    def horizontal_tension_n(self, conductor: Conductor, bare_weight_n_m: float) -> float:
+        """Horizontal tension of the known state [N]."""
+        if self.horizontal_tension_kn is not None:
+            return self.horizontal_tension_kn * 1e3
+        if self.tension_percent_rts is not None:
+            return self.tension_percent_rts / 100.0 * conductor.rated_strength_n
+        return self.catenary_m * bare_weight_n_m
+
+
+@dataclass(frozen=True)
+class Wire:
+    """One wire strung along the line: a phase conductor or an earth wire.
+
+    ``offset_m`` is horizontal, perpendicular to the line (along the bisector
+    at an angle structure), positive to the right looking along increasing
+    seq; ``dz_m`` is vertical from the structure's attachment height.
+    """
+
+    name: str
+    conductor: Conductor
+    stringing: Stringing
+    offset_m: float = 0.0
+    dz_m: float = 0.0
+    insulated: bool = True
+
+
+@dataclass(frozen=True)
+class ClearanceRules:
+    """Required clearances by category, the voltage adder and the clearance options.
+
+    ``base_m`` holds the values before the adder; :attr:`required_m` after it.
+    """
+
+    base_m: dict = field(default_factory=lambda: dict(DEFAULT_REQUIRED_M))
+    voltage_kv: float | None = None
+    max_voltage_kv: float | None = None
+    adder_per_kv_m: float = DEFAULT_ADDER_PER_KV_M
+    adder_above_kv: float = DEFAULT_ADDER_ABOVE_KV
+    cases: tuple[str, ...] | None = None
+    hotspot_merge_m: float = 10.0
+    surface_min_height_m: float = 0.5
+    crossing_width_m: float = 10.0
+
+    @property
+    def phase_to_ground_kv(self) -> float | None:
+        if self.voltage_kv is None:
+            return None
+        return float(phase_to_ground_kv(self.voltage_kv, self.max_voltage_kv))
+
+    @property
+    def adder_m(self) -> float:
+        """Clearance added to every base value for the voltage [m] (0 without a voltage)."""
+        if self.voltage_kv is None:
+            return 0.0
+        return float(voltage_adder_m(self.phase_to_ground_kv, self.adder_per_kv_m, self.adder_above_kv))
+
+    @property
+    def required_m(self) -> dict[str, float]:
+        """Required clearance by category after the adder [m]."""
+        return {name: base + self.adder_m for name, base in self.base_m.items()}
+
+    def checks(self, load_case: str) -> bool:
+        """Whether a load case is checked for clearance."""
+        return self.cases is None or load_case in self.cases
+
+
+@dataclass
+class Project:
+    """A validated project: every setting in SI units, paths resolved."""
+
+    path: Path
+    structures_path: Path
+    structures_layer: str | None
+    terrain_path: Path
+    structures_crs: str | None
+    terrain_z_units: str
+    attach_height_m: float | None
+    conductor: Conductor
+    stringing: Stringing
+    load_cases: list[LoadCase]
+    ground_clearance_m: float
+    station_m: float
+    ice_density_kg_m3: float
+    output_path: Path
+    pipeline_stages: list[str]
+    settings: dict = field(default_factory=dict)
+    wires: list[Wire] = field(default_factory=list)
+    insulator_weight_n: float = 0.0
+    insulator_wind_area_m2: float = 0.0
+    limits: list[TensionLimit] = field(default_factory=list)
+    crossings_path: Path | None = None
+    crossings_layer: str | None = None
+    surface_path: Path | None = None
+    surface_values: str = "elevation"
+    clearance: ClearanceRules = field(default_factory=ClearanceRules)
+
+    @property
+    def base_dir(self) -> Path:
+        return self.path.parent
+
+    def line_wires(self, line_id) -> list[Wire]:
+        """The wires of a line: the ``[[wires]]`` entries, or one wire named after the line at offset 0."""
+        if self.wires:
+            return list(self.wires)
+        return [Wire(name=str(line_id), conductor=self.conductor, stringing=self.stringing)]
+
+    def input_paths(self) -> dict[str, Path]:
+        """Every input file by role, for provenance."""
+        paths = {"project": self.path, "structures": self.structures_path, "terrain": self.terrain_path,
+                 "crossings": self.crossings_path, "surface": self.surface_path}
+        return {role: path for role, path in paths.items() if path is not None}
+
+

@@ -1,0 +1,183 @@
+"""The project file's schema: every table, key, type, default and value check."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Callable
+
+from routesag.physics.clearance_rules import DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADDER_PER_KV_M, DEFAULT_REQUIRED_M
+
+REQUIRED = object()
+#: Highest credible conductor attachment above ground [m]; more is a unit or typing error.
+MAX_ATTACH_HEIGHT_M = 200.0
+
+
+@dataclass(frozen=True)
+class Key:
+    """One setting of the project file: its type, default and a value check."""
+
+    kind: type | tuple
+    default: Any = REQUIRED
+    check: Callable[[Any], str | None] | None = None
+    doc: str = ""
+    table: dict[str, "Key"] | None = None   # the keys of a nested table ([a.b]); kind is dict
+    other: "Key | None" = None              # spec of any further (user-named) key in that nested table
+
+
+def positive(value):
+    return None if value > 0 else "must be > 0"
+
+
+def non_negative(value):
+    return None if value >= 0 else "must be >= 0"
+
+
+def up_to(high):
+    def check(value):
+        return None if 0 < value <= high else f"must be > 0 and <= {high:g}"
+    return check
+
+
+def one_of(*choices):
+    def check(value):
+        return None if value in choices else f"must be one of {', '.join(map(repr, choices))}"
+    return check
+
+
+def text_list(value):
+    if not value:
+        return "must name at least one entry"
+    return None if all(isinstance(v, str) and v for v in value) else "must be a list of names (text)"
+
+
+def crs_text(value):
+    from pyproj import CRS  # lazy: reading a project file needs no GIS stack otherwise
+    from pyproj.exceptions import CRSError
+
+    try:
+        CRS.from_user_input(value)
+    except CRSError:
+        return "is not a CRS PROJ knows (give e.g. 'EPSG:32633')"
+    return None
+
+
+def list_of_text(value):
+    bad = [item for item in value if not isinstance(item, str)]
+    return f"must list stage names as text (not {bad[0]!r})" if bad else None
+
+
+NUMBER = (int, float)
+
+# [clearance.required_m]: the default set plus any user-defined category. "ground" has no default
+# here because `[clearance] ground_m` is its shorthand; see _check_clearance.
+REQUIRED_M_TABLE = {
+    name: Key(NUMBER, None if name == "ground" else value, positive,
+              f"base clearance for {name} before the voltage adder [m]")
+    for name, value in DEFAULT_REQUIRED_M.items()}
+ADDER_TABLE = {
+    "per_kv_m": Key(NUMBER, DEFAULT_ADDER_PER_KV_M, non_negative,
+                    "metres per kV of phase-to-ground voltage above the threshold [m/kV]"),
+    "above_kv": Key(NUMBER, DEFAULT_ADDER_ABOVE_KV, non_negative, "phase-to-ground threshold [kV]"),
+}
+
+SCHEMA: dict[str, dict[str, Key]] = {
+    "inputs": {
+        "structures": Key(str, doc="structures layer: any vector source GDAL reads, or CSV with x, y"),
+        "structures_layer": Key(str, None, doc="layer name inside a multi-layer source"),
+        "terrain": Key(str, doc="single-band elevation raster [m]"),
+        "crs": Key(str, None, crs_text, doc="CRS of the structures when the source has none (CSV)"),
+        "terrain_z_units": Key(str, "m", one_of("m", "ft", "ftUS"), "vertical unit of the terrain"),
+        "crossings": Key(str, None, doc="crossings layer: lines or polygons with a category field"),
+        "crossings_layer": Key(str, None, doc="layer name inside a multi-layer crossings source"),
+        "surface": Key(str, None, doc="surface model raster: top of vegetation and buildings"),
+        "surface_values": Key(str, "elevation", one_of("elevation", "height"),
+                              "surface raster holds elevations (DSM) or heights above the terrain"),
+    },
+    "line": {
+        "attach_height_m": Key(NUMBER, None, up_to(MAX_ATTACH_HEIGHT_M),
+                               "attachment height above ground for structures without attach_height_m [m]"),
+    },
+    "conductor": {
+        # Without a catalog name all six properties are required (checked in _complete_conductor).
+        "name": Key(str, None, doc="catalog conductor: designation or code word (see `routesag conductors`)"),
+        "diameter_mm": Key(NUMBER, None, positive, "overall diameter [mm]"),
+        "area_mm2": Key(NUMBER, None, positive, "total cross-section area [mm2]"),
+        "mass_kg_m": Key(NUMBER, None, positive, "mass per unit length [kg/m]"),
+        "rated_strength_kn": Key(NUMBER, None, positive, "rated tensile strength [kN]"),
+        "modulus_gpa": Key(NUMBER, None, positive, "final modulus of elasticity [GPa]"),
+        "expansion_per_c": Key(NUMBER, None, positive, "thermal expansion coefficient [1/degC]"),
+    },
+    "stringing": {
+        "temperature_c": Key(NUMBER, doc="conductor temperature of the known state [degC]"),
+        "horizontal_tension_kn": Key(NUMBER, None, positive, "horizontal tension of the known state [kN]"),
+        "tension_percent_rts": Key(NUMBER, None, positive, "horizontal tension as % of rated strength"),
+        "catenary_m": Key(NUMBER, None, positive, "catenary constant H/w of the bare wire [m]"),
+        "creep_allowance_c": Key(NUMBER, None, non_negative,
+                                 "creep as an equivalent temperature increase of the final state [degC]"),
+        "from_limits": Key(bool, False, doc="stringing tension: the largest that meets every [[limits]] entry"),
+    },
+    "load_cases": {
+        "name": Key(str),
+        "temperature_c": Key(NUMBER, doc="conductor temperature [degC]"),
+        "ice_mm": Key(NUMBER, 0.0, non_negative, "radial ice thickness [mm]"),
+        "wind_pa": Key(NUMBER, 0.0, non_negative, "wind pressure on the iced conductor [Pa]"),
+        "constant_n_m": Key(NUMBER, 0.0, non_negative, "load constant added to the resultant (NESC K) [N/m]"),
+        "wind_side": Key(str, "right", one_of("right", "left"),
+                         "side the wire blows to, looking along increasing seq"),
+        "condition": Key(str, None, one_of("initial", "final"),
+                         "initial (as strung) or final (after creep); default final when "
+                         "[stringing] creep_allowance_c is given, else initial"),
+    },
+    "limits": {
+        "load_case": Key(str, doc="name of the [[load_cases]] entry the limit applies to"),
+        "max_percent_rts": Key(NUMBER, None, positive, "largest tension as % of rated strength"),
+        "max_catenary_m": Key(NUMBER, None, positive, "largest catenary constant H/w [m]"),
+        "applies_to": Key(str, "horizontal", one_of("horizontal", "support"),
+                          "horizontal tension, or the largest support tension of the section's spans"),
+    },
+    "loads": {
+        "ice_density_kg_m3": Key(NUMBER, 913.0, positive, "ice density [kg/m3]"),
+    },
+    "wires": {
+        "name": Key(str, doc="wire name, e.g. a phase label or the earth wire"),
+        "offset_m": Key(NUMBER, 0.0, doc="horizontal offset from the structure centre, + to the right "
+                                          "looking along increasing seq [m]"),
+        "dz_m": Key(NUMBER, 0.0, doc="height above the structure's attach_height_m [m]"),
+        "insulated": Key(bool, True, doc="hangs from the structure's suspension string (insulator_m); "
+                                         "false for a wire clamped to the structure, e.g. an earth wire"),
+        "conductor": Key(dict, None, doc="the wire's own conductor (keys as [conductor])"),
+        "stringing": Key(dict, None, doc="the wire's own stringing state (keys as [stringing])"),
+    },
+    "insulators": {
+        "weight_n": Key(NUMBER, 0.0, non_negative, "weight of one suspension string [N]"),
+        "wind_area_m2": Key(NUMBER, 0.0, non_negative,
+                            "area of one suspension string facing the wind; its wind load is the load "
+                            "case's wind_pa times this area [m2]"),
+    },
+    "clearance": {
+        "ground_m": Key(NUMBER, None, positive, "shorthand for required_m.ground [m]"),
+        "station_m": Key(NUMBER, 1.0, positive, "sampling interval along each span [m]"),
+        "voltage_kv": Key(NUMBER, None, positive, "nominal line-to-line voltage for the adder [kV]"),
+        "max_voltage_kv": Key(NUMBER, None, positive, "maximum operating line-to-line voltage [kV]"),
+        "cases": Key(list, None, text_list, "load cases checked for clearance (default: all)"),
+        "hotspot_merge_m": Key(NUMBER, 10.0, positive, "violations closer than this form one hotspot [m]"),
+        "surface_min_height_m": Key(NUMBER, 0.5, non_negative,
+                                    "surface cells count as objects when this far above the terrain [m]"),
+        "crossing_width_m": Key(NUMBER, 10.0, positive, "width of a line crossing without width_m [m]"),
+        "required_m": Key(dict, {}, doc="base clearances by category", table=REQUIRED_M_TABLE,
+                          other=Key(NUMBER, check=positive, doc="base clearance of a user category [m]")),
+        "adder": Key(dict, {}, doc="voltage adder", table=ADDER_TABLE),
+    },
+    "output": {
+        "path": Key(str, "results.gpkg", doc="GeoPackage to write"),
+    },
+    "pipeline": {
+        "stages": Key(list, [], list_of_text, doc="stages to add to (or replace in) the built-in chain"),
+    },
+}
+
+# Tables given as [[name]] arrays rather than [name].
+ARRAY_TABLES = {"load_cases", "wires", "limits"}
+REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases", "clearance"}
+TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
+
+
