@@ -87,7 +87,7 @@ def check_station_spacing(project, spans) -> None:
     if project.station_m > shortest["span_m"]:
         raise ProjectError(f"project file {project.path}: [clearance] station_m = {project.station_m:g} m is "
                            f"larger than the shortest span {shortest['span_id']} ({shortest['span_m']:.1f} m); "
-                           f"use at most {shortest['span_m'] / 2:.1f} m so every span is sampled")
+                           f"use at most {shortest['span_m']:.1f} m")
 
 
 def edge_band_m(station_m: float) -> float:

@@ -1,14 +1,18 @@
 """Stage: exact 3D catenary of every span, wire and load case."""
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 
-from routesag.physics.catenary import low_point_x, support_tensions
-from routesag.physics.conductor3d import conductor_points, conductor_stations, swung_span
+from routesag.errors import DataError
+from routesag.physics.conductor3d import conductor_points, conductor_stations, span_geometry
 from routesag.pipeline import Stage
+
+#: Metres per degree of latitude (mean), to size a lat/lon raster's cells.
+METRES_PER_DEGREE = 111_320.0
 
 
 @dataclass
@@ -23,7 +27,7 @@ class ConductorProfile:
     horizontal_tension_n: float
     max_tension_n: float
     sag_m: float                # vertical distance chord to wire at mid-span [m]
-    low_point_m: float          # low point's horizontal distance from the from-support [m]
+    low_point_m: float          # the wire's lowest point: horizontal distance from the from-support [m]
     catenary_m: float
     blowout_deg: float
     wire: str = ""
@@ -31,15 +35,43 @@ class ConductorProfile:
 
 class BuildConductors(Stage):
     name = "build_conductors"
-    requires = ("project", "wire_spans", "tensions", "structure_loads")
+    requires = ("project", "wire_spans", "tensions", "structure_loads", "terrain")
     provides = ("conductors",)
     description = ("exact inclined catenary per span, wire and load case between the (swung) clamps, "
                    "swung by the blowout angle, as 3D stations")
 
     def run(self, data, ctx):
-        station_m = data["project"].station_m
+        station_m, note = effective_station_m(data["project"].station_m, data["terrain"])
+        if note:
+            ctx.warn(note)
+        ctx.notes["station_m"] = station_m
         rows = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
         return {"conductors": [span_profile(row, station_m) for _, row in rows.iterrows()]}
+
+
+def effective_station_m(station_m: float, terrain) -> tuple[float, str | None]:
+    """Station interval actually used [m]: ``station_m``, but never coarser than a terrain cell.
+
+    Clearance is only known at stations; stations further apart than a cell
+    would skip terrain cells, so a bump or a nodata hole between two
+    stations could pass as clear. Returns the interval and, when it was
+    reduced, a note saying so.
+    """
+    cell_m = terrain_cell_m(terrain)
+    if station_m <= cell_m:
+        return station_m, None
+    return cell_m, (f"[clearance] station_m = {station_m:g} m is coarser than the terrain cells ({cell_m:.3g} m): "
+                    f"stations are placed every {cell_m:.3g} m so no terrain cell under the wire is skipped")
+
+
+def terrain_cell_m(terrain) -> float:
+    """Smaller side of a terrain cell [m]; on a lat/lon raster, converted at the raster's mid latitude."""
+    try:
+        return float(min(terrain.cell_size_m))
+    except DataError:  # geographic raster: degrees
+        (res_x, res_y), bounds = terrain.res, terrain.bounds
+        mid_lat = math.radians((bounds[1] + bounds[3]) / 2.0)
+        return float(min(res_x * math.cos(mid_lat), res_y) * METRES_PER_DEGREE)
 
 
 def span_cases(wire_spans, tensions, structure_loads) -> pd.DataFrame:
@@ -70,15 +102,12 @@ def span_profile(row, station_m: float) -> ConductorProfile:
     s, dz = float(np.hypot(*(end - start)[:2])), float(end[2] - start[2])
     h, w, phi = float(row["horizontal_tension_n"]), float(row["resultant_n_m"]), float(row["blowout_rad"])
     side = float(row["side"])
-    s_plane, dz_plane = swung_span(s, dz, phi)
-    c = h / w
-    low_m = float(low_point_x(s_plane, dz_plane, c)) * s / s_plane
+    geometry = span_geometry(s, dz, h, w, phi)
+    low_m = float(geometry.low_point_m)  # the wire's lowest point, also under wind on an inclined span
     stations = conductor_stations(s, station_m, low_m)
     xyz = conductor_points(start, end, h, w, phi, stations, side=side)
-    mid = conductor_points(start, end, h, w, phi, np.array([s / 2.0]), side=side)[0]
-    tension_a, tension_b = support_tensions(s_plane, dz_plane, h, w)
     return ConductorProfile(
         span_id=row["span_id"], section_id=row["section_id"], load_case=row["load_case"],
         stations_m=stations, xyz=xyz, horizontal_tension_n=h,
-        max_tension_n=float(max(tension_a, tension_b)), sag_m=float((start[2] + end[2]) / 2.0 - mid[2]),
-        low_point_m=low_m, catenary_m=c, blowout_deg=float(row["blowout_deg"]), wire=str(row.get("wire", "")))
+        max_tension_n=float(geometry.max_tension_n), sag_m=float(geometry.sag_m),
+        low_point_m=low_m, catenary_m=float(geometry.catenary_m), blowout_deg=float(row["blowout_deg"]), wire=str(row.get("wire", "")))
