@@ -116,18 +116,27 @@ def test_string_weight_and_wind_enter_the_swing(level_line):
     assert still["swing_deg"] == 0.0  # no wind in this case: the string's wind area carries no load
 
 
-@pytest.fixture
-def valley(tmp_path):
-    """Wadhwa's inclined span twice over (FIELD.md §7): supports 70, 30, 70 m high, spans 250 m, w 0.8 kgf/m."""
-    write_plane_raster(tmp_path / "terrain.tif", a=100.0)
-    write_structures(tmp_path / "structures.gpkg", [(X0, Y0 + 200), (X0 + 250, Y0 + 200), (X0 + 500, Y0 + 200)],
-                     kinds=["strain", "suspension", "strain"], heights=[70.0, 30.0, 70.0])
-    path = write_project(tmp_path, cases=[("strung", 15.0, 0.0, 0.0)], ground_m=1.0,
-                         tension_kn=1250 * G / 1e3)
+def wadhwa_valley(folder, p2_height_m=30.0, bearing_deg=90.0, p2_string_m=None):
+    """Wadhwa's inclined span twice over (FIELD.md §7): spans 250 m, w 0.8 kgf/m, H 1250 kgf, ends 70 m high.
+
+    The straight line runs from P1 at the given bearing; P2 stands ``p2_height_m`` high, with an optional string.
+    """
+    b = math.radians(bearing_deg)
+    xy = [(X0 + i * 250 * math.sin(b), Y0 + 200 + i * 250 * math.cos(b)) for i in range(3)]
+    write_plane_raster(folder / "terrain.tif", a=100.0)
+    write_structures(folder / "structures.gpkg", xy, kinds=["strain", "suspension", "strain"],
+                     heights=[70.0, p2_height_m, 70.0], extra={"insulator_m": [None, p2_string_m, None]})
+    path = write_project(folder, cases=[("strung", 15.0, 0.0, 0.0)], ground_m=1.0, tension_kn=1250 * G / 1e3)
     conductor = DRAKE_TOML.replace("mass_kg_m = 1.628", "mass_kg_m = 0.8").replace(
         "rated_strength_kn = 140.1", "rated_strength_kn = 78.45")
     path.write_text(path.read_text().replace(DRAKE_TOML, conductor))
-    return path
+    return path, xy
+
+
+@pytest.fixture
+def valley(tmp_path):
+    """Supports 70, 30, 70 m high on an east-west line (FIELD.md §7)."""
+    return wadhwa_valley(tmp_path)[0]
 
 
 def test_uplift_detected_where_the_low_point_falls_outside(valley):
@@ -149,6 +158,79 @@ def test_summary_lists_uplift(valley):
 
     text = summary_text(routesag.run(valley))
     assert "uplift at suspension structures: 1" in text and "structure P2" in text
+
+
+def valley_on_a_string(folder, bearing_deg):
+    """P2's 3 m string hangs its clamp 12 - 3 = 9 m above the ground, 61 m below its neighbours' clamps."""
+    return wadhwa_valley(folder, p2_height_m=12.0, bearing_deg=bearing_deg, p2_string_m=3.0)
+
+
+@pytest.mark.parametrize("bearing_deg", [83.0, 90.0, 160.0])
+def test_string_in_uplift_stays_plumb_and_is_flagged(tmp_path, bearing_deg):
+    path, xy = valley_on_a_string(tmp_path, bearing_deg)
+    result = routesag.run(path)
+    p2 = by(result["structure_loads"], structure_id="P2", load_case="strung")
+    # Clamps 61 m below their neighbours on 250 m spans, c = 1562.5 m: h > w S^2 / (2H) = 20 m, the low points
+    # fall outside (FIELD.md §1): both spans pull P2 up, and the string has no hanging position.
+    assert p2["vertical_n"] < 0 and bool(p2["uplift"]) is True
+    assert np.isnan(p2["swing_deg"])
+    # The clamp stays at its plumb rest position, 12 - 3 = 9 m above the flat ground at 100 m.
+    np.testing.assert_allclose([p2.geometry.x, p2.geometry.y, p2.geometry.z], [*xy[1], 109.0], atol=1e-9)
+    # The wire is lowest at that clamp: 9.0 m of clearance, not the 12.0 m a string swung up by 90 deg would give.
+    for span in ("A:P1-P2", "A:P2-P3"):
+        assert by(result["conductors"], span_id=span, load_case="strung")["min_clearance_m"] == pytest.approx(
+            9.0, abs=1e-6)
+    warned = [w for w in result.warnings if "uplift" in w and "string" in w]
+    assert len(warned) == 1 and "P2" in warned[0] and "wire A" in warned[0] and "strung" in warned[0]
+
+
+def test_heavy_string_that_is_lifted_still_counts_as_uplift(tmp_path):
+    # A 6 kN string: the structure is pressed down (V_wire + W > 0) but the clamp carries V_wire + W/2 < 0, so the
+    # string cannot hang (FIELD.md §8 form, half the string weight at the clamp, from memory).
+    path, xy = valley_on_a_string(tmp_path, 83.0)
+    path.write_text(path.read_text() + "\n[insulators]\nweight_n = 6000.0\n")
+    p2 = by(routesag.run(path)["structure_loads"], structure_id="P2", load_case="strung")
+    wire_n = p2["vertical_n"] - 6000.0
+    assert wire_n + 6000.0 > 0 > wire_n + 3000.0
+    assert bool(p2["uplift"]) is True and np.isnan(p2["swing_deg"])
+    assert p2.geometry.z == pytest.approx(109.0, abs=1e-9)
+
+
+def test_straight_suspension_string_hangs_plumb_without_wind(tmp_path):
+    # Same straight line, clamps level (weight on P2): rounding in the line-angle load must not swing the string.
+    b = math.radians(83.0)
+    xy = [(X0 + i * 250 * math.sin(b), Y0 + 200 + i * 250 * math.cos(b)) for i in range(3)]
+    write_plane_raster(tmp_path / "terrain.tif", a=100.0)
+    write_structures(tmp_path / "structures.gpkg", xy, kinds=["strain", "suspension", "strain"],
+                     heights=[18.2, 20.0, 18.2], extra={"insulator_m": [None, 1.8, None]})
+    result = routesag.run(write_project(tmp_path, cases=[("still", 15.0, 0.0, 0.0)]))
+    p2 = by(result["structure_loads"], structure_id="P2")
+    assert p2["swing_deg"] == 0.0
+    np.testing.assert_allclose([p2.geometry.x, p2.geometry.y, p2.geometry.z], [*xy[1], 118.2], atol=1e-9)
+    assert not result.warnings
+
+
+def test_nesc_heavy_structure_loads_are_physical_and_tension_keeps_k(tmp_path):
+    # Drake, NESC heavy district (Grigsby Table 14.5, FIELD.md §4): 0.5 in ice, 4 psf, K = 0.30 lb/ft, 0 F.
+    lb_ft, psf = LBF_N / FT_M, LBF_N / FT_M**2
+    write_plane_raster(tmp_path / "terrain.tif", a=100.0)
+    write_structures(tmp_path / "structures.gpkg", [(X0 + i * 300, Y0 + 200) for i in range(3)],
+                     kinds=["strain", "suspension", "strain"])
+    path = write_project(tmp_path, cases=[("heavy", -17.78, 12.7, 4 * psf)])
+    wind = f"wind_pa = {4 * psf}"
+    path.write_text(path.read_text().replace(wind, f"{wind}\nconstant_n_m = {0.30 * lb_ft}"))
+    result = routesag.run(path)
+    p2 = by(result["structure_loads"], structure_id="P2", load_case="heavy")
+    span = by(result["conductors"], span_id="A:P1-P2", load_case="heavy")
+    assert p2["weight_span_m"] == pytest.approx(300.0) and p2["wind_span_m"] == pytest.approx(300.0)
+    # Grigsby Table 14.5: iced vertical 2.094 lb/ft. Level spans: P2 holds half of each, i.e. one span's length
+    # of iced wire; that is 2.094 lb/ft x weight span within the arc-length difference (0.14 % here).
+    assert p2["vertical_n"] == pytest.approx(2.094 * lb_ft * span["length_m"], rel=5e-4)
+    assert p2["vertical_n"] == pytest.approx(2.094 * lb_ft * 300.0, rel=2e-3)
+    # Grigsby Table 14.5: wind 0.7027 lb/ft on the wind span; a straight line adds no line-angle load.
+    assert p2["transverse_n"] == pytest.approx(0.7027 * lb_ft * 300.0, rel=5e-4)
+    # The sag still hangs from the resultant with K: 2.509 lb/ft (Grigsby Table 14.5) sets c = H / w.
+    assert span["horizontal_tension_n"] / span["catenary_m"] == pytest.approx(2.509 * lb_ft, rel=5e-4)
 
 
 @pytest.fixture

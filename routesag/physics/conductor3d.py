@@ -187,8 +187,8 @@ class SpanGeometry:
         Length of wire between the attachments [m].
     vertical_reaction_a_n, vertical_reaction_b_n : float
         Vertical (world z) force of each support on the wire, upward positive,
-        negative = uplift [N]; they sum to the vertical load times the arc
-        length.
+        negative = uplift [N]; they sum to the vertical part of the physical
+        load times the arc length (no design constant K in it).
     """
 
     catenary_m: float
@@ -201,7 +201,7 @@ class SpanGeometry:
     vertical_reaction_b_n: float
 
 
-def span_geometry(span_m, dz_m, horizontal_tension_n, resultant_n_m, blowout_rad):
+def span_geometry(span_m, dz_m, horizontal_tension_n, resultant_n_m, blowout_rad, physical_load_n_m=None):
     """Sag, low point, tensions, length and reactions of one span in its swung plane.
 
     Parameters
@@ -213,9 +213,14 @@ def span_geometry(span_m, dz_m, horizontal_tension_n, resultant_n_m, blowout_rad
     horizontal_tension_n : float or array
         Tension component perpendicular to the load in the swung plane [N].
     resultant_n_m : float or array
-        Resultant load per unit length [N/m].
+        Resultant load per unit length that sets the catenary, including
+        any design constant K [N/m].
     blowout_rad : float or array
         Blowout angle [rad].
+    physical_load_n_m : float or array, optional
+        Load per unit length the wire really puts on its supports:
+        ``sqrt((w + w_ice)^2 + F^2)``, the resultant without K [N/m].
+        Default ``resultant_n_m`` (no K).
 
     Returns
     -------
@@ -228,13 +233,19 @@ def span_geometry(span_m, dz_m, horizontal_tension_n, resultant_n_m, blowout_rad
     sag is ``D' cos(phi)`` with ``D'`` the in-plane mid-span sag. The support
     force on the wire is ``-H e1 + V'_A e2`` at A and ``H e1 + V'_B e2`` at B;
     their world-z parts give the vertical reactions (``e1_z = h sin^2 phi / S'``).
-The elevation of the wire is ``x' e1_z + z'(x') cos(phi)``; it is lowest where
-``sinh((x' - x'_m)/c) = -e1_z / cos(phi)``, which gives ``low_point_m``.
+    ``V'`` is the load on the arc from the vertex to the support; K (NESC
+    Rule 250B) is added to the resultant to set the tension and sag, it is
+    not a weight, so ``V'`` is taken with the physical load (scaled by
+    ``physical / resultant``) while ``H`` keeps its design value.
+    The elevation of the wire is ``x' e1_z + z'(x') cos(phi)``; it is lowest
+    where ``sinh((x' - x'_m)/c) = -e1_z / cos(phi)``, which gives
+    ``low_point_m``.
 
     References
     ----------
     .. [1] Grigsby (ed.), ch. 14 (blowout, support tension);
        Irvine, Cable Structures, ch. 1.
+    .. [2] NESC Rule 250B (the constant K added to the resultant load).
     """
     span = np.asarray(span_m, dtype=float)
     dz = np.asarray(dz_m, dtype=float)
@@ -245,6 +256,9 @@ The elevation of the wire is ``x' e1_z + z'(x') cos(phi)``; it is lowest where
     swung_sag = midspan_sag(span_swung, dz_swung, catenary_m)
     tension_a, tension_b = support_tensions(span_swung, dz_swung, h_n, resultant_n_m)
     reaction_a, reaction_b = vertical_reactions(span_swung, dz_swung, h_n, resultant_n_m)
+    if physical_load_n_m is not None:
+        carried = np.asarray(physical_load_n_m, dtype=float) / np.asarray(resultant_n_m, dtype=float)
+        reaction_a, reaction_b = reaction_a * carried, reaction_b * carried
     e1_z = dz * np.sin(phi) ** 2 / span_swung
     return SpanGeometry(
         catenary_m=catenary_m[()],

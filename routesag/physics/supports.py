@@ -163,7 +163,7 @@ def line_tension_load_n(back_tension_n, back_dir, ahead_tension_n, ahead_dir, al
     return (force * along).sum(axis=1), (force * across).sum(axis=1)
 
 
-def insulator_swing_rad(transverse_n, vertical_n, string_wind_n=0.0, string_weight_n=0.0):
+def insulator_swing_rad(transverse_n, vertical_n, string_wind_n=0.0, string_weight_n=0.0, tolerance_n=0.0):
     """Swing angle of a suspension insulator string from vertical.
 
     ``psi = atan((P_wire + P_ins/2) / (V_wire + W_ins/2))``: the string's
@@ -183,13 +183,18 @@ def insulator_swing_rad(transverse_n, vertical_n, string_wind_n=0.0, string_weig
         Wind load on the whole string, signed like ``transverse_n`` [N].
     string_weight_n : float or array, default 0
         Weight of the whole string [N].
+    tolerance_n : float or array, default 0
+        A net transverse load no larger than this in magnitude counts as
+        none: rounding in the line-angle load of a straight line (a few
+        1e-7 N on tensions of 1e4 N) must not swing the string [N].
 
     Returns
     -------
     float or array
-        Swing angle, positive to the right, within [-pi/2, pi/2] [rad]. A
-        string whose net vertical load points up is returned horizontal
-        (+-pi/2): the string is in uplift and its position is not reliable.
+        Swing angle, positive to the right, within (-pi/2, pi/2) [rad]. NaN
+        where the net vertical load at the clamp is zero or points up: the
+        string is in uplift, has no hanging equilibrium, and this model does
+        not say where it goes (callers keep the clamp plumb and flag it).
 
     References
     ----------
@@ -198,7 +203,9 @@ def insulator_swing_rad(transverse_n, vertical_n, string_wind_n=0.0, string_weig
     """
     horizontal = np.asarray(transverse_n, dtype=float) + np.asarray(string_wind_n, dtype=float) / 2.0
     vertical = np.asarray(vertical_n, dtype=float) + np.asarray(string_weight_n, dtype=float) / 2.0
-    swing = np.arctan2(horizontal, np.maximum(vertical, 0.0))
+    horizontal = np.where(np.abs(horizontal) <= np.asarray(tolerance_n, dtype=float), 0.0, horizontal)
+    hanging = vertical > 0.0
+    swing = np.where(hanging, np.arctan2(horizontal, np.where(hanging, vertical, 1.0)), np.nan)
     return swing[()]
 
 

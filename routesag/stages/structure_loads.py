@@ -3,8 +3,19 @@
 One pass: weight spans, loads and swing angles come from the spans hung
 between the wires' rest attachments (strings hanging plumb). The swung
 attachment points this stage gives are then used to draw the wires; the
-loads are not recomputed from the swung geometry (the swing moves a clamp by
-a few decimetres on spans of hundreds of metres).
+loads are not recomputed from the swung geometry. A swing can move a clamp
+by most of the string length (at a line angle even without wind), which
+changes spans of hundreds of metres little but is not fed back.
+
+Loads on the structure are physical: the wire and ice weight and the wind on
+the iced wire. The design constant K (NESC Rule 250B) is part of the resultant
+that sets tension and sag, so it reaches the structure only through the
+tensions (longitudinal and line-angle loads), never as weight.
+
+A suspension string whose net vertical load at the clamp is zero or points up
+(uplift) has no hanging position: its clamp stays plumb at rest (the lowest
+position, conservative for ground clearance), swing_deg is NaN, uplift is set
+and the run warns.
 """
 from __future__ import annotations
 
@@ -17,6 +28,8 @@ from routesag.physics.supports import (insulator_swing_rad, line_tension_load_n,
 from routesag.pipeline import Stage
 
 KEYS = ["line_id", "structure_id", "wire", "load_case"]
+# A transverse load below this fraction of the wire's tensions is rounding (a straight line's angle load).
+ROUNDING_FRACTION = 1e-9
 SIDES = ("back", "ahead")
 COLUMNS = ["structure_id", "line_id", "wire", "load_case", "kind", "weight_span_m", "wind_span_m", "vertical_n",
            "transverse_n", "longitudinal_n", "uplift", "deviation_deg", "insulator_m", "swing_deg", "x", "y", "z"]
@@ -35,21 +48,37 @@ class ComputeStructureLoads(Stage):
                                         "(strings plumb); the wires are then drawn from the swung clamps")
         loads = structure_loads(data["attachments"], data["wire_spans"], data["tensions"],
                                 project.insulator_weight_n, project.insulator_wind_area_m2)
+        for message in lifted_string_warnings(loads):
+            ctx.warn(message)
         return {"structure_loads": loads}
+
+
+def lifted_string_warnings(loads: pd.DataFrame) -> list[str]:
+    """One warning per structure and wire whose suspension string is in uplift, naming the load cases."""
+    lifted = loads[(loads["insulator_m"] > 0) & loads["swing_deg"].isna()]
+    messages = []
+    for (structure, wire), rows in lifted.groupby(["structure_id", "wire"], sort=False):
+        cases = ", ".join(rows["load_case"].astype(str))
+        messages.append(f"structure {structure} wire {wire}: suspension string in uplift (the wire pulls its clamp "
+                        f"up) in load case(s) {cases}; the clamp is kept plumb at rest, its lowest position, and "
+                        "swing_deg is empty")
+    return messages
 
 
 def span_ends(wire_spans: pd.DataFrame, tensions: pd.DataFrame) -> pd.DataFrame:
     """Per span, wire and load case: low point, vertical reactions, tension and plan direction.
 
     Vertical reactions are world-z support forces on the wire from the exact
-    catenary hung in the plane swung by the blowout angle.
+    catenary hung in the plane swung by the blowout angle: the shape from the
+    resultant with K, the load carried from the physical one (wire, ice, wind).
     """
     solved = tensions[["section_id", "wire", "load_case", "horizontal_tension_n", "resultant_n_m",
-                       "blowout_rad"]]
+                       "blowout_rad", "vertical_n_m", "wind_n_m"]]
     rows = wire_spans.merge(solved, on=["section_id", "wire"])
     geometry = span_geometry(rows["span_m"].to_numpy(), rows["dz_m"].to_numpy(),
                              rows["horizontal_tension_n"].to_numpy(), rows["resultant_n_m"].to_numpy(),
-                             rows["blowout_rad"].to_numpy())
+                             rows["blowout_rad"].to_numpy(),
+                             physical_load_n_m=np.hypot(rows["vertical_n_m"], rows["wind_n_m"]).to_numpy())
     return rows.assign(
         low_point_m=np.atleast_1d(geometry.low_point_m),
         reaction_from_n=np.atleast_1d(geometry.vertical_reaction_a_n),
@@ -88,12 +117,18 @@ def structure_loads(attachments, wire_spans, tensions, string_weight_n=0.0,
     -------
     DataFrame
         Columns :data:`COLUMNS`: weight_span_m, wind_span_m, vertical_n
-        (downward, wire plus string weight), transverse_n (to the right:
-        wind on the wind span plus the line-angle component),
-        longitudinal_n (along increasing seq: the difference of the
-        horizontal tensions), uplift (net vertical load up at a suspension
-        structure), swing_deg (string swing, positive to the right) and
-        x, y, z (the wire clamp, swung) [m].
+        (downward, wire and ice plus string weight, no K), transverse_n (to
+        the right: wind on the iced wire over the wind span plus the
+        line-angle component), longitudinal_n (along increasing seq: the
+        difference of the horizontal tensions), uplift (net vertical load up
+        at a suspension structure, or its string lifted), swing_deg (string
+        swing, positive to the right; NaN for a string in uplift) and x, y, z
+        (the wire clamp, swung; plumb for a string in uplift) [m].
+
+    References
+    ----------
+    .. [1] ASCE Manual of Practice No. 74 (weight and wind spans, structure
+       loads); NESC Rule 250B (K added to the resultant for tension only).
     """
     case_loads = tensions[["wire", "load_case", "vertical_n_m", "wind_n_m", "wind_pa", "side"]].drop_duplicates(
         ["wire", "load_case"])
@@ -118,14 +153,16 @@ def _loads(f: pd.DataFrame, string_weight_n: float, string_wind_area_m2: float) 
     side = f["side"].to_numpy(dtype=float)
     transverse = angle_load + side * f["wind_n_m"].to_numpy() * wind_span
     string_wind_n = side * f["wind_pa"].to_numpy() * string_wind_area_m2
+    rounding_n = ROUNDING_FRACTION * (f["back_horizontal_tension_n"] + f["ahead_horizontal_tension_n"]).to_numpy()
     swing = np.where(has_string, insulator_swing_rad(transverse, f["vertical_n_m"].to_numpy() * weight_span,
-                                                     string_wind_n, string_weight_n), 0.0)
-    sideways, up = swing_displacement_m(f["insulator_m"].to_numpy(), swing)
+                                                     string_wind_n, string_weight_n, rounding_n), 0.0)
+    lifted = np.isnan(swing)
+    sideways, up = swing_displacement_m(f["insulator_m"].to_numpy(), np.where(lifted, 0.0, swing))
     vertical = (f["back_vertical_n"] + f["ahead_vertical_n"]).to_numpy() + np.where(has_string,
                                                                                    string_weight_n, 0.0)
     out = f.assign(
         weight_span_m=weight_span, wind_span_m=wind_span, vertical_n=vertical, transverse_n=transverse,
-        longitudinal_n=longitudinal, uplift=(f["kind"].to_numpy() == "suspension") & (vertical < 0),
+        longitudinal_n=longitudinal, uplift=(f["kind"].to_numpy() == "suspension") & ((vertical < 0) | lifted),
         swing_deg=np.degrees(swing), x=f["x"] + sideways * axes["across"][:, 0],
         y=f["y"] + sideways * axes["across"][:, 1], z=f["z"] + up)
     return out[COLUMNS].reset_index(drop=True)

@@ -96,9 +96,24 @@ def test_string_weight_and_wind_count_half():
     assert psi == pytest.approx(math.atan(1100.0 / 3300.0))
 
 
-def test_string_in_uplift_is_returned_horizontal():
-    assert insulator_swing_rad(100.0, -500.0) == pytest.approx(math.pi / 2)
-    assert insulator_swing_rad(-100.0, -500.0) == pytest.approx(-math.pi / 2)
+def test_string_in_uplift_has_no_swing_angle():
+    # A string pulled up (net vertical load at the clamp <= 0) has no hanging equilibrium: no angle, whatever the
+    # transverse load, not a horizontal string (statics: atan(P / V) needs V > 0).
+    assert np.isnan(insulator_swing_rad(100.0, -500.0))
+    assert np.isnan(insulator_swing_rad(-1.6e-7, -500.0))
+    assert np.isnan(insulator_swing_rad(0.0, 0.0))
+    # Half the string weight at the clamp can keep it hanging: V = -200 + 600/2 > 0 (FIELD.md §8 form, from memory).
+    assert insulator_swing_rad(100.0, -200.0, string_weight_n=600.0) == pytest.approx(math.atan(100.0 / 100.0))
+
+
+def test_rounding_noise_is_no_transverse_load():
+    # -1.6e-7 N is what a straight line's line-angle load comes to in floating point; below the tolerance it is 0.
+    assert insulator_swing_rad(-1.6e-7, 1e-3, tolerance_n=1e-5) == 0.0
+    assert insulator_swing_rad(-1.6e-7, 1e-3) == pytest.approx(-1.6e-4)  # without it the noise would swing
+    # A load above the tolerance is kept, and arrays are handled element by element.
+    psi = insulator_swing_rad(np.array([2e-5, 1000.0, 5.0]), np.array([1.0, 1000.0, -1.0]), tolerance_n=1e-5)
+    np.testing.assert_allclose(psi[:2], [math.atan(2e-5), math.pi / 4])
+    assert np.isnan(psi[2])
 
 
 def test_swing_displacement():
