@@ -99,8 +99,9 @@ def _uplift_lines(loads) -> list[str]:
     up = loads[loads["uplift"].astype(bool)]
     lines = [f"uplift at suspension structures: {len(up)}"]
     for _, u in up.iterrows():
+        direction = "up" if u["vertical_n"] < 0 else "down, but the string is lifted"
         lines.append(f"  structure {u['structure_id']}{_wire(u)} [{u['load_case']}]: net vertical load "
-                     f"{u['vertical_n'] / 1e3:.2f} kN (up), weight span {u['weight_span_m']:.0f} m")
+                     f"{abs(u['vertical_n']) / 1e3:.2f} kN ({direction}), weight span {u['weight_span_m']:.0f} m")
     return lines
 
 
