@@ -158,7 +158,6 @@ class Project:
     conductor: Conductor
     stringing: Stringing
     load_cases: list[LoadCase]
-    ground_clearance_m: float
     station_m: float
     ice_density_kg_m3: float
     output_path: Path
