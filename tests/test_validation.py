@@ -92,6 +92,13 @@ def bad_field_and_missing_terrain(tmp: Path) -> Path:
     return edit(project, 'terrain = "terrain.tif"', 'terrain = "gone.tif"')
 
 
+def wire_without_creep_allowance(tmp: Path) -> Path:
+    """The line creeps 20 C (so every case is final); wire E has its own stringing but no allowance."""
+    project = good_survey(tmp, extra='[[wires]]\nname = "E"\n[wires.stringing]\ntemperature_c = 15.0\n'
+                                     'horizontal_tension_kn = 10.0\n')
+    return edit(project, "horizontal_tension_kn = 30.0", "horizontal_tension_kn = 30.0\ncreep_allowance_c = 20.0")
+
+
 @dataclass
 class Case:
     id: str
@@ -233,6 +240,9 @@ CASES = [
          SolveError, (r"tension section A:S1, load case 'cold': change of state cannot be solved",
                       r"tension section A:S2, load case 'cold': change of state cannot be solved",
                       r"thermal strain shrinks the wire to nothing")),
+    Case("wire's own stringing without a creep allowance in a final case", wire_without_creep_allowance,
+         ProjectError, (r"project\.toml: \[\[wires\]\] #1 \('E'\) stringing: missing key 'creep_allowance_c'.*"
+                        r"give creep_allowance_c \(0 for a wire that does not creep\)",)),
     Case("station spacing zero", lambda tmp: good_survey(tmp, station_m=0.0), ProjectError,
          (r"\[clearance\]: station_m = 0\.0 must be > 0",)),
     Case("station spacing larger than the shortest span", lambda tmp: good_survey(tmp, station_m=260.0),
