@@ -142,6 +142,7 @@ name = "Partridge"                 # from the conductor catalog: ACSR 266.8 kcmi
 [wires.stringing]
 temperature_c = 15.0
 tension_percent_rts = 18.0
+creep_allowance_c = 5.0            # invented demo value: a smaller, steel-rich wire creeps less
 
 [insulators]
 weight_n = 600.0

@@ -1,6 +1,7 @@
 """The whole pipeline on surveys built in code."""
 import math
 
+import geopandas as gpd
 import numpy as np
 import pyogrio
 import pytest
@@ -45,6 +46,22 @@ def test_geopackage_schema_and_3d(survey):
     conductors = result["conductors"]
     assert len(conductors) == 3 * 2 and conductors.geometry.has_z.all()
     assert set(result["spans"]["section_id"]) == {"A:S1", "A:S2"}
+
+
+def test_structures_take_the_sections_of_their_own_line(tmp_path):
+    # Structure ids are unique only within a line (README): lines A and B both use P1-P3.
+    write_plane_raster(tmp_path / "terrain.tif")
+    xs = [0.0, 300.0, 600.0]
+    layer = gpd.GeoDataFrame(
+        {"structure_id": ["P1", "P2", "P3"] * 2, "seq": [1, 2, 3] * 2, "line_id": ["A"] * 3 + ["B"] * 3,
+         "kind": ["strain", "suspension", "strain"] + ["strain"] * 3},
+        geometry=shapely.points([(X0 + x, Y0 + 100.0) for x in xs] + [(X0 + x, Y0 + 300.0) for x in xs]), crs=CRS)
+    layer.to_file(tmp_path / "structures.gpkg", layer="structures", driver="GPKG")
+    structures = routesag.run(write_project(tmp_path))["structures"]
+    sections = {(row.line_id, row.structure_id): row.section_id for row in structures.itertuples()}
+    # A: one section P1-P3. B: strain at P2 too, so P2 starts B's second section and P3 ends it.
+    assert sections == {("A", "P1"): "A:S1", ("A", "P2"): "A:S1", ("A", "P3"): "A:S1",
+                        ("B", "P1"): "B:S1", ("B", "P2"): "B:S2", ("B", "P3"): "B:S2"}
 
 
 def test_clearance_on_plane_is_analytic(survey):

@@ -9,17 +9,23 @@ import contextlib
 import itertools
 import random
 import signal
+from types import SimpleNamespace
 
+import geopandas as gpd
 import numpy as np
+import pyogrio
 import pytest
+import shapely
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import routesag
 from routesag.errors import RoutesagError
+from routesag.io.crossings import check_crossings, read_crossings_file
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
-from routesag.project import load_project
+from routesag.project import ClearanceRules, load_project
+from routesag.stages.surface import SurfaceModel
 from tests.conftest import CRS, X0, Y0, write_plane_raster, write_project, write_structures
 
 TIME_LIMIT_S = 20
@@ -68,21 +74,63 @@ def read_terrain(path):
         terrain.sample(x, y)
 
 
-READERS = {".gpkg": read_structures, ".csv": read_structures, ".tif": read_terrain, ".toml": load_project}
+def read_crossings(path):
+    """Read and check a crossings layer as the read_crossings stage does (working CRS: the structures')."""
+    check_crossings(read_crossings_file(path), path, ClearanceRules(), CRS, default_crs=CRS)
+
+
+def read_surface(path, terrain_path):
+    """Open a surface model and measure one span's wire (a level chord over the valid raster) against it."""
+    xyz = np.column_stack([np.linspace(X0 - 100.0, X0 + 300.0, 41), np.full(41, Y0 + 298.0), np.full(41, 112.0)])
+    profile = SimpleNamespace(xyz=xyz, span_id="A:P1-P2", load_case="hot")
+    with TerrainSampler(path) as raster, TerrainSampler(terrain_path) as terrain:
+        model = SurfaceModel(raster, terrain, CRS, heights=False, min_height_m=0.5, required_m=3.0,
+                             largest_required_m=8.0)
+        model.sample([profile])
+
+
+# Reader name -> (file extension, reader). A wrong-typed file is the valid file of another reader, unless both
+# take the same kind of file (terrain and surface model are both elevation rasters).
+READERS = {"structures": (".gpkg", read_structures), "structures_csv": (".csv", read_structures),
+           "terrain": (".tif", read_terrain), "project": (".toml", load_project),
+           "crossings": (".gpkg", read_crossings), "surface": (".tif", None)}
+SAME_KIND = {frozenset({"terrain", "surface"})}
 
 
 @pytest.fixture(scope="module")
 def valid(tmp_path_factory):
-    """Bytes of one valid file of each kind the readers take."""
+    """Bytes of one valid file for each reader, and the terrain the surface reader measures against."""
     folder = tmp_path_factory.mktemp("valid")
     write_plane_raster(folder / "terrain.tif", bx=0.01, cy=0.02, shape=(120, 300))
+    # Every surface cell 1 m above the terrain (objects), with a nodata hole next to the wire.
+    write_plane_raster(folder / "surface.tif", a=101.0, bx=0.01, cy=0.02, shape=(120, 300),
+                       holes=[(40, 50, 100, 110)])
     write_structures(folder / "structures.gpkg", [(X0, Y0), (X0 + 300.0, Y0), (X0 + 550.0, Y0)])
     (folder / "structures.csv").write_text(
         f"structure_id,seq,kind,attach_height_m,x,y\nP1,1,strain,20,{X0},{Y0}\nP2,2,,18.5,{X0 + 300},{Y0}\n")
+    gpd.GeoDataFrame({"category": ["road", "water"], "width_m": [None, 6.0]},
+                     geometry=[shapely.box(X0 + 100, Y0 - 50, X0 + 112, Y0 + 50),
+                               shapely.LineString([(X0 + 400, Y0 - 80), (X0 + 420, Y0 + 80)])],
+                     crs=CRS).to_file(folder / "crossings.gpkg", layer="crossings", driver="GPKG")
     write_project(folder)
-    return {ext: (folder / name).read_bytes() for ext, name in
-            ((".tif", "terrain.tif"), (".gpkg", "structures.gpkg"), (".csv", "structures.csv"),
-             (".toml", "project.toml"))}
+    files = {"structures": "structures.gpkg", "structures_csv": "structures.csv", "terrain": "terrain.tif",
+             "project": "project.toml", "crossings": "crossings.gpkg", "surface": "surface.tif"}
+    data = {name: (folder / file).read_bytes() for name, file in files.items()}
+    data["terrain_path"] = folder / "terrain.tif"
+    return data
+
+
+def reader(name, valid):
+    """The reader called ``name``; the surface reader measures against the valid terrain."""
+    if name == "surface":
+        return lambda path: read_surface(path, valid["terrain_path"])
+    return READERS[name][1]
+
+
+def test_valid_files_are_read(tmp_path, valid):
+    """Every valid file reads without error, so the fuzzing starts from something a reader accepts."""
+    for name, (ext, _) in READERS.items():
+        reader(name, valid)(fresh(tmp_path, ext, valid[name]))
 
 
 def fresh(tmp_path, ext, data: bytes):
@@ -92,29 +140,30 @@ def fresh(tmp_path, ext, data: bytes):
     return path
 
 
-@pytest.mark.parametrize("ext", list(READERS))
+@pytest.mark.parametrize("name", list(READERS))
 @FUZZ
 @given(data=st.binary(max_size=4096))
-def test_random_bytes(tmp_path, ext, data):
-    only_routesag_errors(lambda: READERS[ext](fresh(tmp_path, ext, data)))
+def test_random_bytes(tmp_path, valid, name, data):
+    ext = READERS[name][0]
+    only_routesag_errors(lambda: reader(name, valid)(fresh(tmp_path, ext, data)))
 
 
-@pytest.mark.parametrize("ext", list(READERS))
+@pytest.mark.parametrize("name", list(READERS))
 @FUZZ
 @given(fraction=st.floats(0.0, 1.0, exclude_max=True))
-def test_truncated_file(tmp_path, valid, ext, fraction):
-    data = valid[ext]
-    only_routesag_errors(lambda: READERS[ext](fresh(tmp_path, ext, data[:int(len(data) * fraction)])))
+def test_truncated_file(tmp_path, valid, name, fraction):
+    ext, data = READERS[name][0], valid[name]
+    only_routesag_errors(lambda: reader(name, valid)(fresh(tmp_path, ext, data[:int(len(data) * fraction)])))
 
 
-@pytest.mark.parametrize("ext", list(READERS))
+@pytest.mark.parametrize("name", list(READERS))
 @FUZZ
 @given(flips=st.lists(st.tuples(st.integers(0, 2**31), st.integers(0, 255)), min_size=1, max_size=40))
-def test_corrupted_file(tmp_path, valid, ext, flips):
-    data = bytearray(valid[ext])
+def test_corrupted_file(tmp_path, valid, name, flips):
+    data = bytearray(valid[name])
     for where, byte in flips:
         data[where % len(data)] = byte
-    only_routesag_errors(lambda: READERS[ext](fresh(tmp_path, ext, bytes(data))))
+    only_routesag_errors(lambda: reader(name, valid)(fresh(tmp_path, READERS[name][0], bytes(data))))
 
 
 def test_corrupted_geopackage_as_terrain_prints_no_traceback(tmp_path, valid, capfd):
@@ -125,7 +174,7 @@ def test_corrupted_geopackage_as_terrain_prints_no_traceback(tmp_path, valid, ca
     """
     rng = random.Random(5)
     for _ in range(30):
-        data = bytearray(valid[".gpkg"])
+        data = bytearray(valid["structures"])
         for _ in range(rng.randint(1, 50)):
             data[rng.randrange(len(data))] = rng.randrange(256)
         only_routesag_errors(lambda: read_terrain(fresh(tmp_path, ".tif", bytes(data))))
@@ -133,23 +182,26 @@ def test_corrupted_geopackage_as_terrain_prints_no_traceback(tmp_path, valid, ca
     assert "Traceback" not in err and "UnicodeDecodeError" not in err, err
 
 
-@pytest.mark.parametrize("reader_ext, content_ext",
-                         [(r, c) for r in READERS for c in READERS if r != c])
-def test_wrong_type_of_file(tmp_path, valid, reader_ext, content_ext):
-    """A raster given as structures, a project file given as terrain, and so on."""
-    path = fresh(tmp_path, reader_ext, valid[content_ext])
+WRONG_TYPES = [(r, c) for r in READERS for c in READERS if r != c and frozenset({r, c}) not in SAME_KIND]
+
+
+@pytest.mark.parametrize("reader_name, content", WRONG_TYPES)
+def test_wrong_type_of_file(tmp_path, valid, reader_name, content):
+    """A raster given as structures, a project file given as terrain, structures given as crossings, ..."""
+    path = fresh(tmp_path, READERS[reader_name][0], valid[content])
     with pytest.raises(RoutesagError):
         with time_limit(TIME_LIMIT_S):
-            READERS[reader_ext](path)
+            reader(reader_name, valid)(path)
 
 
-@pytest.mark.parametrize("ext", list(READERS))
-def test_empty_file_and_folder(tmp_path, ext):
+@pytest.mark.parametrize("name", list(READERS))
+def test_empty_file_and_folder(tmp_path, valid, name):
+    ext = READERS[name][0]
     folder = tmp_path / f"folder{ext}"
     folder.mkdir()
     for path in (fresh(tmp_path, ext, b""), folder):
         with pytest.raises(RoutesagError):
-            READERS[ext](path)
+            reader(name, valid)(path)
 
 
 CELLS = ["", "P1", "P2", "1", "2", "2.5", "-1", "0", "250", "nan", "inf", "-inf", "1e400", "strain",
@@ -174,6 +226,19 @@ def test_csv_tables(tmp_path, columns, rows, crs, default_height):
     only_routesag_errors(read)
 
 
+SITE_GRID = ('ENGCRS["site grid",EDATUM["site"],CS[Cartesian,2],AXIS["x",east,LENGTHUNIT["metre",1]],'
+             'AXIS["y",north,LENGTHUNIT["metre",1]]]')
+
+
+@pytest.mark.parametrize("label", ["EPSG:4326", "EPSG:2229", "EPSG:3857", "EPSG:32733", SITE_GRID])
+def test_crossings_under_a_wrong_crs_label(tmp_path, valid, label):
+    """The valid crossings' coordinates relabelled with another CRS: read, refused by name, never a crash."""
+    gdf = pyogrio.read_dataframe(fresh(tmp_path, ".gpkg", valid["crossings"])).set_crs(label, allow_override=True)
+    path = tmp_path / f"relabelled{next(_names)}.gpkg"
+    gdf.to_file(path, layer="crossings", driver="GPKG")
+    only_routesag_errors(lambda: read_crossings(path))
+
+
 TOKENS = ["1", "-1", "0", "1e400", "nan", "inf", '"x"', "true", "[]", "[1, 2]", '["a", 3]', "{}", "{ a = 1 }",
           "1979-05-27", '"EPSG:4326"', '"nonsense"', '""', '"../../x"', "[[x]]", "= =", "'''"]
 
@@ -184,7 +249,7 @@ TOKENS = ["1", "-1", "0", "1e400", "nan", "inf", '"x"', "true", "[]", "[1, 2]", 
                                 st.sampled_from(TOKENS)), min_size=1, max_size=6))
 def test_project_file_edits(tmp_path, valid, edits):
     """The valid project file with lines deleted, duplicated, or given odd values."""
-    lines = valid[".toml"].decode().splitlines()
+    lines = valid["project"].decode().splitlines()
     for where, action, token in edits:
         i = int(where * len(lines))
         if action == "delete":

@@ -20,6 +20,13 @@ def test_ground_m_is_shorthand_for_required_ground(survey):
     assert rules.cases is None and rules.checks("anything")
 
 
+def test_ground_clearance_has_one_home(survey):
+    # The ground rule lives in project.clearance only; a second copy on Project (unread) could drift from it.
+    project = load_project(survey)
+    assert not hasattr(project, "ground_clearance_m")
+    assert project.clearance.required_m["ground"] == 7.5
+
+
 def test_default_set_is_used_when_nothing_is_given():
     # FIELD.md §6 (NESC Table 232-1, from memory): ground/road 5.6, railway 8.1, water 5.2, pedestrian 4.4.
     table, problems = clearance()

@@ -2,7 +2,7 @@
 import pytest
 
 from routesag.errors import ProjectError
-from routesag.project import load_project, resolve_conductor, validate_settings
+from routesag.project import Stringing, load_project, resolve_conductor, validate_settings
 from tests.conftest import DRAKE_TOML
 
 
@@ -76,6 +76,58 @@ def test_final_condition_needs_an_allowance(survey):
     with_text(survey, 'name = "hot"', 'name = "hot"\ncondition = "final"')
     with pytest.raises(ProjectError, match=r"#1: condition = 'final' needs \[stringing\] creep_allowance_c"):
         load_project(survey)
+
+
+# A wire with its own conductor and stringing (no creep allowance of its own).
+OWN_WIRE = """
+[[wires]]
+name = "C"
+
+[[wires]]
+name = "E"
+dz_m = 5.0
+insulated = false
+[wires.conductor]
+name = "Partridge"
+[wires.stringing]
+temperature_c = 15.0
+tension_percent_rts = 18.0
+"""
+CREEP_20 = "horizontal_tension_kn = 30.0\ncreep_allowance_c = 20.0"
+
+
+def test_own_stringing_without_allowance_is_refused_when_a_case_is_final(survey):
+    # The line's allowance (20 C) belongs to its conductor; the earth wire must not silently get none (or 20).
+    survey.write_text(with_text(survey, "horizontal_tension_kn = 30.0", CREEP_20).read_text() + OWN_WIRE)
+    with pytest.raises(ProjectError) as info:
+        load_project(survey)
+    assert info.value.problems == [
+        f"{survey}: [[wires]] #2 ('E') stringing: missing key 'creep_allowance_c': load case(s) 'hot', 'cold' "
+        "are final (after creep); give creep_allowance_c (0 for a wire that does not creep)"]
+
+
+def test_own_stringing_without_allowance_is_fine_when_every_case_is_initial(survey):
+    survey.write_text(survey.read_text() + OWN_WIRE)
+    project = load_project(survey)
+    assert {c.condition for c in project.load_cases} == {"initial"}
+    assert project.wires[1].stringing.creep_allowance_c is None
+
+
+def test_own_stringing_creeps_by_its_own_allowance(survey):
+    survey.write_text(with_text(survey, "horizontal_tension_kn = 30.0", CREEP_20).read_text()
+                      + OWN_WIRE.replace("tension_percent_rts = 18.0", "tension_percent_rts = 18.0\n"
+                                                                       "creep_allowance_c = 5.0"))
+    phase, earth = load_project(survey).wires
+    assert phase.stringing.state_temperature_c(90.0, "final") == 110.0
+    assert earth.stringing.state_temperature_c(90.0, "final") == 95.0
+    assert earth.stringing.state_temperature_c(90.0, "initial") == 90.0
+
+
+def test_final_state_without_an_allowance_is_never_taken_as_no_creep():
+    stringing = Stringing(temperature_c=15.0, horizontal_tension_kn=30.0)
+    assert stringing.state_temperature_c(90.0, "initial") == 90.0
+    with pytest.raises(ValueError, match="final condition needs creep_allowance_c"):
+        stringing.state_temperature_c(90.0, "final")
 
 
 LIMIT = '\n[[limits]]\nload_case = "{case}"\nmax_percent_rts = 25.0\n'

@@ -157,6 +157,20 @@ def test_surface_in_a_geographic_crs_is_refused_by_name(tmp_path):
         routesag.run(project)
 
 
+def test_surface_in_a_local_grid_is_refused_by_name(tmp_path):
+    # A site grid PROJ cannot relate to the structures' UTM zone: a data error naming the file, not a crash.
+    x, y = cell_centres()
+    project = project_with_surface(tmp_path, GROUND_Z + tree_height(x, y))
+    site = ('ENGCRS["site grid",EDATUM["site"],CS[Cartesian,2],AXIS["x",east,LENGTHUNIT["metre",1]],'
+            'AXIS["y",north,LENGTHUNIT["metre",1]]]')
+    with rasterio.open(tmp_path / "surface.tif", "w", driver="GTiff", width=10, height=10, count=1,
+                       dtype="float32", crs=site, transform=from_origin(0.0, 100.0, 1.0, 1.0)) as dst:
+        dst.write(np.zeros((1, 10, 10), "float32"))
+    with pytest.raises(routesag.DataError, match=r"surface model .*surface.tif: CRS 'site grid' cannot be "
+                                                 r"transformed to the working CRS 'WGS 84 / UTM zone 33N'"):
+        routesag.run(project)
+
+
 def test_surface_in_another_projected_crs_gives_the_same_distance(tmp_path):
     # The same cone, sampled at the cell centres of a raster in EPSG:3035 (LAEA Europe).
     from pyproj import Transformer

@@ -92,6 +92,24 @@ def bad_field_and_missing_terrain(tmp: Path) -> Path:
     return edit(project, 'terrain = "terrain.tif"', 'terrain = "gone.tif"')
 
 
+def wire_without_creep_allowance(tmp: Path) -> Path:
+    """The line creeps 20 C (so every case is final); wire E has its own stringing but no allowance."""
+    project = good_survey(tmp, extra='[[wires]]\nname = "E"\n[wires.stringing]\ntemperature_c = 15.0\n'
+                                     'horizontal_tension_kn = 10.0\n')
+    return edit(project, "horizontal_tension_kn = 30.0", "horizontal_tension_kn = 30.0\ncreep_allowance_c = 20.0")
+
+
+def with_crossings(crs, layer="crossings"):
+    """Good survey plus a road across the first span, written in ``crs`` as it stands (coordinates unchanged)."""
+    def build(tmp: Path) -> Path:
+        project = good_survey(tmp)
+        write_layer(tmp / "crossings.gpkg", {"category": ["road"]},
+                    [shapely.box(X0 + 140.0, Y0 + 150.0, X0 + 160.0, Y0 + 250.0)], crs, layer=layer)
+        return edit(project, 'terrain = "terrain.tif"',
+                    f'terrain = "terrain.tif"\ncrossings = "crossings.gpkg"\ncrossings_layer = "{layer}"')
+    return build
+
+
 @dataclass
 class Case:
     id: str
@@ -197,6 +215,12 @@ CASES = [
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
                                      crs=local_grid("foot", 0.3048)),
          DataError, (r"structures\.gpkg: CRS 'site grid' cannot be transformed to lat/lon .*reproject the layer",)),
+    Case("crossings in projected metres labelled lat/lon", with_crossings("EPSG:4326"), DataError,
+         (r"crossings file .*crossings\.gpkg, layer 'crossings': feature 1 \(category 'road'\): coordinates "
+          r"cannot be placed in the working CRS 'WGS 84 / UTM zone 33N'",)),
+    Case("crossings in a local grid", with_crossings(local_grid("metre", 1)), DataError,
+         (r"crossings file .*crossings\.gpkg, layer 'crossings': CRS 'site grid' cannot be transformed to the "
+          r"working CRS 'WGS 84 / UTM zone 33N'",)),
     Case("CSV without CRS",
          lambda tmp: (good_survey(tmp, structures="s.csv"),
                       (tmp / "s.csv").write_text(f"structure_id,seq,x,y\nP1,1,{X0},{Y0}\nP2,2,{X0 + 300},{Y0}\n")
@@ -233,6 +257,9 @@ CASES = [
          SolveError, (r"tension section A:S1, load case 'cold': change of state cannot be solved",
                       r"tension section A:S2, load case 'cold': change of state cannot be solved",
                       r"thermal strain shrinks the wire to nothing")),
+    Case("wire's own stringing without a creep allowance in a final case", wire_without_creep_allowance,
+         ProjectError, (r"project\.toml: \[\[wires\]\] #1 \('E'\) stringing: missing key 'creep_allowance_c'.*"
+                        r"give creep_allowance_c \(0 for a wire that does not creep\)",)),
     Case("station spacing zero", lambda tmp: good_survey(tmp, station_m=0.0), ProjectError,
          (r"\[clearance\]: station_m = 0\.0 must be > 0",)),
     Case("station spacing larger than the shortest span", lambda tmp: good_survey(tmp, station_m=260.0),

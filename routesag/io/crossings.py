@@ -14,9 +14,10 @@ import numpy as np
 import pandas as pd
 import pyogrio
 import shapely
+from pyproj import CRS
 
 from routesag.errors import DataError
-from routesag.io.structures import _near, _numeric, _short
+from routesag.io.structures import _near, _numeric, _short, finite_coordinates, reproject
 
 #: Categories measured against something other than a place on the ground.
 RESERVED_CATEGORIES = ("surface",)
@@ -52,7 +53,8 @@ def read_crossings_file(path, layer=None) -> gpd.GeoDataFrame:
     return gdf
 
 
-def check_crossings(gdf: gpd.GeoDataFrame, source, rules, work_crs, default_crs=None) -> gpd.GeoDataFrame:
+def check_crossings(gdf: gpd.GeoDataFrame, source, rules, work_crs, default_crs=None,
+                    layer=None) -> gpd.GeoDataFrame:
     """Validate a crossings layer and turn it into areas with their required clearance.
 
     Parameters
@@ -69,14 +71,24 @@ def check_crossings(gdf: gpd.GeoDataFrame, source, rules, work_crs, default_crs=
         Projected working CRS in metres.
     default_crs : str, optional
         CRS for a layer that has none (``[inputs] crs``).
+    layer : str, optional
+        Layer name for messages.
 
     Returns
     -------
     geopandas.GeoDataFrame
         Columns ``feature`` (row number), ``category``, ``required_m`` (after the
         adder) [m]; (multi)polygon geometry in ``work_crs``.
+
+    Raises
+    ------
+    DataError
+        Every problem found, each naming the file, the feature and its category:
+        bad fields, geometry that is not a line or polygon, a CRS that cannot be
+        transformed to ``work_crs``, a feature the transformation cannot place, or
+        one with no area.
     """
-    where = f"crossings file {source}"
+    where = f"crossings file {source}" + ("" if layer is None else f", layer {layer!r}")
     problems: list[str] = []
     if gdf.crs is None and default_crs:
         gdf = gdf.set_crs(default_crs)
@@ -97,7 +109,13 @@ def check_crossings(gdf: gpd.GeoDataFrame, source, rules, work_crs, default_crs=
     if problems:
         raise DataError(problems)
     base = np.where(np.isnan(own), [rules.base_m.get(c, np.nan) for c in categories], own)
-    areas = _as_areas(gdf.to_crs(work_crs).geometry.values, np.where(np.isnan(width), rules.crossing_width_m, width))
+    geometries = _in_working_crs(gdf, work_crs, labels, where)
+    areas = _as_areas(geometries, np.where(np.isnan(width), rules.crossing_width_m, width))
+    for i in np.flatnonzero(shapely.is_empty(areas) | (shapely.area(areas) <= 0.0)):
+        problems.append(f"{where}: {labels[i]}: geometry has no area in the working CRS (a collapsed polygon "
+                        "or a zero-length line): fix or remove the feature")
+    if problems:
+        raise DataError(problems)
     return gpd.GeoDataFrame({"feature": np.arange(1, len(gdf) + 1), "category": categories.to_numpy(dtype=object),
                              "required_m": base + rules.adder_m}, geometry=areas, crs=work_crs)
 
@@ -128,6 +146,20 @@ def _geometry_problems(geom) -> list[str]:
     if geom.geom_type not in LINE_TYPES + AREA_TYPES:
         return [f"geometry is {geom.geom_type}; expected a line or a polygon"]
     return []
+
+
+def _in_working_crs(gdf, work_crs, labels, where) -> np.ndarray:
+    """The layer's geometries in the working CRS; refuses a CRS pair PROJ cannot relate and any feature the
+    transformation cannot place (infinite coordinates would become empty areas, and the rule be lost)."""
+    work_name = CRS(work_crs).name
+    moved = reproject(gdf, work_crs, where, f"the working CRS {work_name!r}",
+                      advice="give the crossings layer the structures' CRS").geometry.values
+    bad = np.flatnonzero(~finite_coordinates(moved))
+    if len(bad):
+        raise DataError([f"{where}: {labels[i]}: coordinates cannot be placed in the working CRS {work_name!r} "
+                         f"from the layer's CRS {CRS(gdf.crs).to_string()}; check the layer's CRS (projected "
+                         "metres labelled as lat/lon?)" for i in bad])
+    return moved
 
 
 def _as_areas(geometries, width_m) -> np.ndarray:

@@ -13,6 +13,7 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyogrio
+import shapely
 from pyproj import CRS
 from pyproj.exceptions import CRSError, ProjError
 
@@ -272,11 +273,8 @@ def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, 
     crs = CRS(gdf.crs)
     if crs.is_engineering and crs.axis_info and crs.axis_info[0].unit_name in ("metre", "meter"):
         return gdf, crs, f"structures CRS {crs.name!r} is a local grid in metres: used as is"
-    try:
-        lon_lat = gdf.to_crs(4326)
-    except (CRSError, ProjError) as exc:
-        raise DataError(f"structures file {source}: CRS {crs.name!r} cannot be transformed to lat/lon "
-                        f"({_short(exc)}); reproject the layer to a projected CRS in metres") from None
+    where = f"structures file {source}"
+    lon_lat = reproject(gdf, 4326, where, "lat/lon")
     lon, lat = lon_lat.geometry.x.to_numpy(), lon_lat.geometry.y.to_numpy()
     bad = ~(np.isfinite(lon) & np.isfinite(lat) & (np.abs(lat) <= 90.0) & (np.abs(lon) <= 180.0))
     if bad.any():
@@ -286,4 +284,38 @@ def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, 
                          for sid, x, y in zip(gdf.loc[bad, "structure_id"], gdf.geometry.x[bad], gdf.geometry.y[bad])])
     center = lon_lat.geometry.union_all().centroid
     crs, note = working_crs(gdf.crs, (center.x, center.y))
-    return (gdf if CRS(gdf.crs) == crs else gdf.to_crs(crs)), crs, note
+    return (gdf if CRS(gdf.crs) == crs else reproject(gdf, crs, where, repr(crs.name))), crs, note
+
+
+def reproject(gdf: gpd.GeoDataFrame, crs, where: str, target: str,
+              advice: str = "reproject the layer to a projected CRS in metres") -> gpd.GeoDataFrame:
+    """``gdf.to_crs(crs)``; a CRS pair PROJ cannot relate (a local grid, say) is a DataError.
+
+    Parameters
+    ----------
+    where : str
+        File (and layer) for the message.
+    target : str
+        What ``crs`` is, for the message (e.g. ``"lat/lon"``).
+    advice : str
+        What the user should do.
+    """
+    try:
+        return gdf.to_crs(crs)
+    except (CRSError, ProjError) as exc:
+        raise DataError(f"{where}: CRS {CRS(gdf.crs).name!r} cannot be transformed to {target} "
+                        f"({_short(exc)}); {advice}") from None
+
+
+def finite_coordinates(geometries) -> np.ndarray:
+    """Whether each geometry has coordinates and all of them (x, y) are finite.
+
+    A transformation that cannot place a point (projected metres read as
+    degrees, say) gives infinite coordinates, which later steps turn into
+    empty geometry without a word.
+    """
+    geometries = np.asarray(geometries, dtype=object)
+    coords, index = shapely.get_coordinates(geometries, return_index=True)
+    finite = ~shapely.is_empty(geometries) & ~shapely.is_missing(geometries)
+    finite[index[~np.isfinite(coords).all(axis=1)]] = False
+    return finite

@@ -75,7 +75,7 @@ def _build_project(path: Path, s: dict, output) -> Project:
         structures_crs=s["inputs"]["crs"], terrain_z_units=s["inputs"]["terrain_z_units"],
         attach_height_m=s["line"]["attach_height_m"], conductor=conductor,
         stringing=stringing, load_cases=load_cases,
-        ground_clearance_m=s["clearance"]["required_m"]["ground"], station_m=s["clearance"]["station_m"],
+        station_m=s["clearance"]["station_m"],
         ice_density_kg_m3=s["loads"]["ice_density_kg_m3"], output_path=out.resolve(),
         pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
         wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],

@@ -73,10 +73,18 @@ class Stringing:
         """Temperature at which the initial state stands for ``condition`` [degC].
 
         The final (crept) state at T is the initial state at T + creep allowance.
+
+        Raises
+        ------
+        ValueError
+            For the final condition without an allowance: no creep is never
+            assumed silently (project validation refuses such a project first).
         """
-        if condition == "final":
-            return temperature_c + (self.creep_allowance_c or 0.0)
-        return temperature_c
+        if condition != "final":
+            return temperature_c
+        if self.creep_allowance_c is None:
+            raise ValueError("the final condition needs creep_allowance_c (0 for a wire that does not creep)")
+        return temperature_c + self.creep_allowance_c
 
     def horizontal_tension_n(self, conductor: Conductor, bare_weight_n_m: float) -> float:
         """Horizontal tension of the known state [N]."""
@@ -158,7 +166,6 @@ class Project:
     conductor: Conductor
     stringing: Stringing
     load_cases: list[LoadCase]
-    ground_clearance_m: float
     station_m: float
     ice_density_kg_m3: float
     output_path: Path

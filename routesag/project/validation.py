@@ -228,14 +228,36 @@ def _check_stringing_strength(source, stringing: dict, conductor: dict, problems
 
 
 def _set_conditions(source, settings: dict, problems) -> None:
-    """Default each load case's condition: final when a creep allowance is given, else initial."""
+    """Default each load case's condition: final when a creep allowance is given, else initial.
+
+    Every stringing table a final case is solved from must give its own allowance.
+    """
     allowance = settings.get("stringing", {}).get("creep_allowance_c")
+    final = []
     for i, case in enumerate(settings.get("load_cases", [])):
         if case.get("condition") is None:
             case["condition"] = "initial" if allowance is None else "final"
         elif case["condition"] == "final" and allowance is None:
             problems.append(f"{source}: [[load_cases]] #{i + 1}: condition = 'final' needs [stringing] "
                             f"creep_allowance_c (give 0 for a conductor that does not creep)")
+        if case["condition"] == "final":
+            final.append(case.get("name") or f"#{i + 1}")
+    if final:
+        _check_wire_creep(source, settings.get("wires", []), final, problems)
+
+
+def _check_wire_creep(source, wires: list[dict], final_cases: list[str], problems) -> None:
+    """A wire's own stringing needs its own creep allowance when a case is final.
+
+    Creep depends on the conductor, so the line's allowance is not carried over
+    to a wire strung on its own terms.
+    """
+    for i, entry in enumerate(wires):
+        own = entry.get("stringing")
+        if isinstance(own, dict) and own.get("creep_allowance_c") is None:
+            problems.append(f"{source}: {_wire_label(i, entry)} stringing: missing key 'creep_allowance_c': "
+                            f"load case(s) {', '.join(map(repr, final_cases))} are final (after creep); give "
+                            f"creep_allowance_c (0 for a wire that does not creep)")
 
 
 def _check_limits(source, settings: dict, problems) -> None:

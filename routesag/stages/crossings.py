@@ -26,7 +26,8 @@ class ReadCrossings(Stage):
         if project.crossings_path is None:
             return {"crossings": empty_crossings(crs)}
         raw = read_crossings_file(project.crossings_path, project.crossings_layer)
-        crossings = check_crossings(raw, project.crossings_path, project.clearance, crs, project.structures_crs)
+        crossings = check_crossings(raw, project.crossings_path, project.clearance, crs, project.structures_crs,
+                                    layer=project.crossings_layer)
         ctx.notes["crossings"] = crossings["category"].value_counts().sort_index().to_dict()
         return {"crossings": crossings}
 

@@ -67,11 +67,14 @@ class WriteGeoPackage(Stage):
 
 
 def structures_layer(structures, spans, crs) -> gpd.GeoDataFrame:
-    """Structures as Point Z at the attachment, with the tension section that starts there."""
-    first = spans.groupby("from_id", sort=False)["section_id"].first()
-    last = spans.groupby("to_id", sort=False)["section_id"].last()
-    ids = structures["structure_id"].astype(str)
-    section = ids.map(first).fillna(ids.map(last))
+    """Structures as Point Z at the attachment, with the tension section that starts there.
+
+    Structure ids are unique only within a line, so spans are matched on (line_id, structure_id).
+    """
+    keys = pd.MultiIndex.from_arrays([structures["line_id"].astype(str), structures["structure_id"].astype(str)])
+    starting = spans.groupby(["line_id", "from_id"], sort=False)["section_id"].first().reindex(keys)
+    ending = spans.groupby(["line_id", "to_id"], sort=False)["section_id"].last().reindex(keys)
+    section = starting.fillna(ending)
     columns = ["structure_id", "line_id", "seq", "kind", "attach_height_m", "ground_z_m", "attach_z_m"]
     columns += [c for c in ("insulator_m",) if c in structures]
     frame = pd.DataFrame(structures[columns]).assign(section_id=section.to_numpy())

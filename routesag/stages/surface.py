@@ -25,7 +25,7 @@ import pyproj
 from scipy.spatial import cKDTree
 
 from routesag.errors import DataError
-from routesag.io.terrain import TerrainSampler, _horizontal_part
+from routesag.io.terrain import TerrainSampler, _first_line, _horizontal_part
 from routesag.pipeline import Stage
 
 
@@ -94,7 +94,7 @@ class SurfaceModel:
         self.required_m, self.largest_required_m = required_m, largest_required_m
         self.half_cell_m = 0.5 * float(np.hypot(*raster.cell_size_m))
         source = _horizontal_part(raster.crs)
-        self._to_work = None if source == self.crs else pyproj.Transformer.from_crs(source, self.crs, always_xy=True)
+        self._to_work = None if source == self.crs else _transformer(source, self.crs, raster.path)
 
     def describe(self) -> str:
         return (f"surface cells more than {self.min_height_m:g} m above the terrain are objects; 3D distance "
@@ -161,6 +161,15 @@ class SurfaceModel:
         for dx, dy in ((1, 0), (-1, 0), (0, 1), (0, -1)):
             covered &= self.raster.contains(xy[:, 0] + dx * self.reach_m, xy[:, 1] + dy * self.reach_m, crs=self.crs)
         return covered
+
+
+def _transformer(source, target, path) -> pyproj.Transformer:
+    """Surface raster CRS -> working CRS; a pair PROJ cannot relate (a local grid) is a DataError."""
+    try:
+        return pyproj.Transformer.from_crs(source, target, always_xy=True)
+    except pyproj.exceptions.ProjError as exc:
+        raise DataError(f"surface model {path}: CRS {source.name!r} cannot be transformed to the working CRS "
+                        f"{target.name!r} ({_first_line(exc)}); give the surface model the terrain's CRS") from None
 
 
 def _largest_offset(xy, chord) -> float:

@@ -19,6 +19,9 @@ is tested as a known over-prediction band; 212 F is past the aluminium knee
 point (FIELD.md §7) and is tested as the expected 5-12 % under-prediction.
 """
 
+import re
+from pathlib import Path
+
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
@@ -92,6 +95,18 @@ def test_drake_212f_below_knee_point_is_underpredicted():
     # under-predict tension by 5-10 %; we find about 10 %.
     ratio = drake_tension_lb(BARE_N_M, 212.0, 75e9) / 3728.0
     assert 0.88 < ratio < 0.95
+
+
+def test_readme_states_the_knee_point_in_both_units():
+    # FIELD.md §7 (comparison with Grigsby Table 14.5): the linear model holds within ~2 % up to 120 F and
+    # under-predicts by 5-10 % above ~150 F. The README's limitation must say the same temperature: a figure
+    # in degC has to be the 150 F one, not 150 degC (which is past the table's last row, 212 F = 100 C).
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+    found = re.search(r"above about (\d+) degC \((\d+) degF, the knee point\)", readme)
+    assert found, "README Limitations: knee point not stated as 'above about N degC (M degF, the knee point)'"
+    knee_c, knee_f = (float(v) for v in found.groups())
+    assert knee_f == 150.0  # FIELD.md §7
+    assert knee_c == pytest.approx(fahrenheit(knee_f), abs=0.5)
 
 
 def test_drake_exact_and_parabolic_agree():

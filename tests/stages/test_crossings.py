@@ -89,3 +89,46 @@ def test_missing_crs_is_refused_unless_given():
 def test_no_crossings_means_ground_everywhere():
     required, category = classify_points(np.zeros((3, 2)), empty_crossings(WORK), 7.0)
     assert set(category) == {"ground"} and set(required) == {7.0}
+
+
+def site_grid() -> CRS:
+    """A local engineering CRS in metres: PROJ cannot relate it to any earth CRS."""
+    return CRS.from_wkt('ENGCRS["site grid",EDATUM["site"],CS[Cartesian,2],AXIS["x",east,LENGTHUNIT["metre",1]],'
+                        'AXIS["y",north,LENGTHUNIT["metre",1]]]')
+
+
+def test_projected_metres_labelled_lat_lon_are_refused_not_lost():
+    # UTM metres read as degrees cannot be placed: the road must not turn into an empty area.
+    areas = layer([box(500010, 5600000, 500020, 5600010), box(10, 50, 10.001, 50.001)],
+                  crs="EPSG:4326", category=["road", "railway"])
+    with pytest.raises(DataError) as info:
+        check_crossings(areas, "x.gpkg", RULES, WORK, layer="crossings")
+    assert info.value.problems == [
+        "crossings file x.gpkg, layer 'crossings': feature 1 (category 'road'): coordinates cannot be placed in "
+        "the working CRS 'WGS 84 / UTM zone 33N' from the layer's CRS EPSG:4326; check the layer's CRS "
+        "(projected metres labelled as lat/lon?)"]
+
+
+@pytest.mark.parametrize("layer_crs, work", [(site_grid(), WORK), (WORK, site_grid())])
+def test_crs_that_cannot_be_related_is_a_data_error(layer_crs, work):
+    areas = layer([box(0, 0, 10, 10)], crs=layer_crs, category=["road"])
+    with pytest.raises(DataError, match=r"crossings file x.gpkg, layer 'roads': CRS '.*' cannot be transformed to "
+                                        r"the working CRS '.*' \(.*\); give the crossings layer the structures' CRS"):
+        check_crossings(areas, "x.gpkg", RULES, work, layer="roads")
+
+
+def test_same_local_grid_as_the_structures_is_used_as_is():
+    grid = site_grid()
+    crossings = check_crossings(layer([box(0, 0, 10, 10)], crs=grid, category=["road"]), "x.gpkg", RULES, grid)
+    assert crossings.geometry.iloc[0].area == 100.0
+
+
+def test_feature_without_area_is_refused():
+    collapsed = shapely.Polygon([(0, 0), (10, 0), (20, 0)])
+    zero_length = shapely.LineString([(5, 5), (5, 5)])
+    areas = layer([box(0, 0, 1, 1), collapsed, zero_length], category=["road", "water", "railway"])
+    with pytest.raises(DataError) as info:
+        check_crossings(areas, "x.gpkg", RULES, WORK)
+    assert [p.split(": ")[1] for p in info.value.problems] == ["feature 2 (category 'water')",
+                                                                "feature 3 (category 'railway')"]
+    assert all("geometry has no area in the working CRS" in p for p in info.value.problems)
