@@ -40,7 +40,26 @@ class ClassifyStations(Stage):
 
     def run(self, data, ctx):
         ground_m = data["project"].clearance.required_m["ground"]
+        message = far_from_line(data["crossings"], data["conductors"])
+        if message:
+            ctx.warn(f"crossings {data['project'].crossings_path}: {message}")
         return {"station_rules": station_rules(data["conductors"], data["crossings"], ground_m)}
+
+
+#: A crossings layer none of whose features comes this close to the line is probably in the wrong CRS [m].
+FAR_FROM_LINE_M = 1000.0
+
+
+def far_from_line(crossings, profiles) -> str | None:
+    """A warning when the layer has features but none within :data:`FAR_FROM_LINE_M` of any wire."""
+    if len(crossings) == 0 or not profiles:
+        return None
+    xy = np.concatenate([p.xyz[:, :2] for p in profiles])
+    area = shapely.box(*(xy.min(axis=0) - FAR_FROM_LINE_M), *(xy.max(axis=0) + FAR_FROM_LINE_M))
+    if crossings.sindex.query(area, predicate="intersects").size:
+        return None
+    return (f"none of its {len(crossings)} features lies within {FAR_FROM_LINE_M:.0f} m of the line, so no "
+            "crossing rule applies; check the layer's CRS")
 
 
 def empty_crossings(crs) -> gpd.GeoDataFrame:
