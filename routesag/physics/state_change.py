@@ -23,18 +23,16 @@ References
 """
 
 import numpy as np
-from scipy.optimize import brentq
+from scipy.optimize import brentq, minimize_scalar
 
 from routesag.errors import SolveError
 
 from .catenary import arc_length, mean_tension
 
-__all__ = ["ruling_span", "change_of_state", "parabolic_change_of_state"]
+__all__ = ["ruling_span", "change_of_state", "parabolic_change_of_state", "physical_tension_range"]
 
 #: Largest half-span angle S/2c tried by the exact solver; cosh overflows near 710.
 _MAX_HALF_SPAN_ANGLE = 300.0
-#: Largest horizontal tension tried, as a multiple of EA (a strain of 100 is absurd).
-_MAX_TENSION_PER_EA = 100.0
 
 
 def ruling_span(spans_m):
@@ -123,8 +121,9 @@ def change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m
     Raises
     ------
     routesag.errors.SolveError
-        If an input is not positive or no tension between a sag of
-        ``S/2c = 300`` and ``100 EA`` satisfies the state equation.
+        If an input is not positive, state 1 has a mean tension of ``EA``
+        or more, or no physical tension (mean tension below ``EA``, see
+        :func:`physical_tension_range`) satisfies the state equation.
 
     References
     ----------
@@ -150,15 +149,54 @@ def change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m
     def residual(tension_n):
         return _elastic_length_ratio(span_m, tension_n, weight2_n_m, axial_stiffness_n) - target_m
 
-    low_limit = weight2_n_m * span_m / (2.0 * _MAX_HALF_SPAN_ANGLE)
-    high_limit = _MAX_TENSION_PER_EA * axial_stiffness_n
+    if mean_tension(span_m, 0.0, tension1_n, weight1_n_m) >= axial_stiffness_n:
+        raise SolveError(f"change of state impossible: the mean tension of state 1 is not below EA = "
+                         f"{axial_stiffness_n:.4g} N, a strain of 100 % or more ({describe})")
+    low_limit, high_limit = physical_tension_range(span_m, weight2_n_m, axial_stiffness_n, describe)
     guess = parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
                                       temperature2_c, modulus_pa, area_m2, expansion_per_c)
-    low, high = _bracket(residual, float(guess), low_limit, high_limit)
+    low, high = _bracket(residual, float(np.clip(guess, low_limit, high_limit)), low_limit, high_limit)
     if low is None:
         raise SolveError(f"change of state has no solution with a horizontal tension between "
                          f"{low_limit:.4g} N and {high_limit:.4g} N ({describe})")
     return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
+
+
+def physical_tension_range(span_m, weight_n_m, axial_stiffness_n, describe=""):
+    """Horizontal tensions [N] of a level span whose mean tension stays below ``EA``.
+
+    Only these are physical: at ``T_mean = EA`` the linear law gives an
+    elastic strain of 100 % (the wire twice its unstressed length), far past
+    any conductor's breaking strain of a few per cent. Beyond it the
+    unstressed length ``L / (1 + T_mean / EA)`` stops growing with the sag
+    (it tends to ``EA L / T_mean``), so the state equation gains a second,
+    spurious root; restricting the search to this interval keeps the one
+    physical root. ``T_mean(H)`` falls and then rises with ``H`` (sag, then
+    stretch), so the set is one interval around the tension of least mean
+    tension; its ends are where ``T_mean = EA``, found by ``brentq``.
+
+    Returns
+    -------
+    (low_n, high_n) : tuple of float
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        If no horizontal tension gives a mean tension below ``EA``.
+    """
+    def excess(log_h):
+        return float(mean_tension(span_m, 0.0, np.exp(log_h), weight_n_m)) / axial_stiffness_n - 1.0
+
+    slackest = np.log(weight_n_m * span_m / (2.0 * _MAX_HALF_SPAN_ANGLE))
+    tightest = np.log(axial_stiffness_n)  # T_mean >= H, so H < EA
+    best = minimize_scalar(excess, bounds=(slackest, tightest), method="bounded",
+                           options={"xatol": 1e-10}).x
+    if excess(best) >= 0:
+        raise SolveError(f"change of state impossible: every horizontal tension gives a mean tension of at "
+                         f"least EA = {axial_stiffness_n:.4g} N ({describe})")
+    low = slackest if excess(slackest) < 0 else brentq(excess, slackest, best, xtol=1e-14)
+    high = brentq(excess, best, tightest, xtol=1e-14)
+    return float(np.exp(low)), float(np.exp(high))
 
 
 def _bracket(residual, guess, low_limit, high_limit):

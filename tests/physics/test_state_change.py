@@ -177,3 +177,26 @@ def test_reference_temperature_defaults_to_state_one():
     assert sc.change_of_state(*args) == sc.change_of_state(*args, reference_temperature_c=10.0)
     # Another anchor changes the answer only at second order in alpha * dt (here ~1e-6 relative).
     assert_allclose(sc.change_of_state(*args, reference_temperature_c=20.0), sc.change_of_state(*args), rtol=1e-4)
+
+
+def test_mean_tension_above_ea_is_refused_not_a_spurious_root():
+    # Issue 9's example: 1500 m at H = 140 N hangs with a mean tension far above EA (c = 8.8 m); the
+    # unchanged state is 140 N, and a second root (70.3 N) appeared when unphysical tensions were searched.
+    args = (1500, 140, 15.965, 15, 15.965, 15, 74e9, 468.6e-6, 18.9e-6)
+    mean_n = cat.mean_tension(1500.0, 0.0, 140.0, 15.965)
+    assert mean_n > 74e9 * 468.6e-6
+    with pytest.raises(SolveError, match="EA"):
+        sc.change_of_state(*args)
+
+
+def test_physical_range_brackets_mean_tension_ea():
+    ea = 74e9 * 468.6e-6
+    low, high = sc.physical_tension_range(1500.0, 15.965, ea)
+    for h, inside in ((low * 1.001, True), (low * 0.999, False), (high * 0.999, True), (high * 1.001, False)):
+        assert (cat.mean_tension(1500.0, 0.0, h, 15.965) < ea) == inside
+
+
+def test_unchanged_state_returns_its_own_tension_on_slack_but_physical_spans():
+    for h1 in (2.0e3, 1.0e4, 3.0e4):
+        assert_allclose(sc.change_of_state(1500, h1, 15.965, 15, 15.965, 15, 74e9, 468.6e-6, 18.9e-6), h1,
+                        rtol=1e-9)
