@@ -208,6 +208,27 @@ class TerrainSampler:
             out[inside] = self._interpolate(col_f[inside], row_f[inside])
         return out
 
+    def grid_coords(self, x, y, crs=None):
+        """Continuous grid coordinates ``(u, v)`` of points: integer values are columns / rows of cell centres.
+
+        ``u = col - 0.5``, ``v = row - 0.5`` (pixel (row, col) spans
+        ``[col, col+1) x [row, row+1)``); the bilinear surface is smooth
+        between integer ``u`` and ``v`` and kinks across them.
+
+        Parameters
+        ----------
+        x, y : float or array_like
+            Point coordinates [CRS units].
+        crs : anything pyproj.CRS accepts, optional
+            CRS of ``x, y``; default the raster CRS.
+
+        Returns
+        -------
+        (u, v) : tuple of numpy.ndarray
+        """
+        col_f, row_f = self._pixel_coords(*self._to_raster_xy(x, y, crs))
+        return col_f - 0.5, row_f - 0.5
+
     def contains(self, x, y, crs=None):
         """True where a point lies within the raster footprint (edges included).
 

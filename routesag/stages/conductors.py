@@ -8,6 +8,7 @@ import numpy as np
 import pandas as pd
 
 from routesag.errors import DataError
+from routesag.physics.bilinear import exact_minimum_stations
 from routesag.physics.conductor3d import conductor_points, conductor_stations, span_geometry
 from routesag.pipeline import Stage
 
@@ -35,7 +36,7 @@ class ConductorProfile:
 
 class BuildConductors(Stage):
     name = "build_conductors"
-    requires = ("project", "wire_spans", "tensions", "structure_loads", "terrain")
+    requires = ("project", "wire_spans", "tensions", "structure_loads", "terrain", "work_crs")
     provides = ("conductors",)
     description = ("exact inclined catenary per span, wire and load case between the (swung) clamps, "
                    "swung by the blowout angle, as 3D stations")
@@ -46,7 +47,31 @@ class BuildConductors(Stage):
             ctx.warn(note)
         ctx.notes["station_m"] = station_m
         rows = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
-        return {"conductors": [span_profile(row, station_m) for _, row in rows.iterrows()]}
+        terrain = TerrainView(data["terrain"], data["work_crs"])
+        return {"conductors": [span_profile(row, station_m, terrain) for _, row in rows.iterrows()]}
+
+
+@dataclass(frozen=True)
+class TerrainView:
+    """The terrain seen from the working CRS: what :func:`span_profile` needs to place exact-minimum stations."""
+
+    sampler: object
+    crs: object
+
+    def exact_stations(self, stations_m, wire_at):
+        """Stations plus the grid-line crossings and quadratic vertices of :mod:`routesag.physics.bilinear`.
+
+        ``wire_at(stations) -> (n, 3)`` gives the wire's points in the working CRS.
+        """
+        def grid_uv(s):
+            xyz = wire_at(s)
+            return self.sampler.grid_coords(xyz[:, 0], xyz[:, 1], crs=self.crs)
+
+        def clearance(s):
+            xyz = wire_at(s)
+            return xyz[:, 2] - self.sampler.sample(xyz[:, 0], xyz[:, 1], crs=self.crs)
+
+        return exact_minimum_stations(stations_m, grid_uv, clearance)
 
 
 def effective_station_m(station_m: float, terrain) -> tuple[float, str | None]:
@@ -90,12 +115,13 @@ def span_cases(wire_spans, tensions, structure_loads) -> pd.DataFrame:
     return rows
 
 
-def span_profile(row, station_m: float) -> ConductorProfile:
+def span_profile(row, station_m: float, terrain: TerrainView | None = None) -> ConductorProfile:
     """Build the :class:`ConductorProfile` of one span, wire and solved load case.
 
     ``row`` holds the clamps x0, y0, z0, x1, y1, z1 [m], horizontal_tension_n,
     resultant_n_m, blowout_rad, blowout_deg, side, span_id, section_id,
-    load_case and (optionally) wire.
+    load_case and (optionally) wire. With ``terrain``, the stations also hold every point where
+    the minimum clearance to the bilinear terrain can lie (grid-line crossings, quadratic vertices).
     """
     start = np.array([row["x0"], row["y0"], row["z0"]], dtype=float)
     end = np.array([row["x1"], row["y1"], row["z1"]], dtype=float)
@@ -105,7 +131,13 @@ def span_profile(row, station_m: float) -> ConductorProfile:
     geometry = span_geometry(s, dz, h, w, phi)
     low_m = float(geometry.low_point_m)  # the wire's lowest point, also under wind on an inclined span
     stations = conductor_stations(s, station_m, low_m)
-    xyz = conductor_points(start, end, h, w, phi, stations, side=side)
+
+    def wire_at(stations_m):
+        return conductor_points(start, end, h, w, phi, stations_m, side=side)
+
+    if terrain is not None:
+        stations = terrain.exact_stations(stations, wire_at)
+    xyz = wire_at(stations)
     return ConductorProfile(
         span_id=row["span_id"], section_id=row["section_id"], load_case=row["load_case"],
         stations_m=stations, xyz=xyz, horizontal_tension_n=h,

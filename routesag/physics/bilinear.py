@@ -1,0 +1,156 @@
+"""Stations at which the minimum of (wire z - bilinear terrain) along a wire is exact.
+
+A raster's bilinear surface is, along a straight plan path, a different
+quadratic in every cell of pixel centres it crosses: it has a kink wherever
+the path crosses a row or a column of cell centres, and inside a cell its own
+vertex whenever the path runs oblique to the grid (the ``u v`` term). Regular
+stations, one per cell, miss both, so a ridge one cell wide can be cut by a
+metre or more.
+
+:func:`exact_minimum_stations` adds, to given stations,
+
+1. every point where the wire's plan path crosses a row or a column of cell
+   centres (integer grid coordinate ``u`` or ``v``, see below), found on the
+   chord between two stations and corrected by one secant step on the real
+   (possibly curved, under wind) path;
+2. inside each piece between two such points, the vertex of the quadratic
+   through the clearance at its two ends and its middle, when that quadratic
+   opens upwards and the vertex lies inside the piece.
+
+On each piece the terrain is exactly quadratic along a straight path, so the
+three-point quadratic differs from the clearance only by the wire's departure
+from its local parabola, at most ``e = M3 d^3 / (72 sqrt 3)`` with
+``M3 = max |z'''|`` and ``d`` the piece length (Lagrange remainder of
+quadratic interpolation on three equally spaced nodes). The clearance at the
+added vertex then exceeds the true minimum of the piece by at most ``2 e``.
+For a catenary ``z''' = sinh(x/c) / c^2 <= tan(slope) / c^2``; with
+``c >= 50 m``, slopes below 45 degrees and pieces up to a 2 m cell diagonal
+(2.83 m), ``2 e < 0.1 mm``. Under wind the plan path bends by about
+``d^2 / (8 c)`` over a piece; its quadratic part is caught by the same
+three-point fit, and the remainder is of the order of
+``|d_uv| (d^2 / 8c) d`` (the bilinear cross term times the bend times the
+piece), below 1 mm for cell steps up to 10 m of height on 1 m cells. The
+stated bound, :data:`BOUND_M`, is 1 mm; the tests check it against a dense
+brute-force evaluation.
+
+Grid coordinates: ``u = col - 0.5``, ``v = row - 0.5`` in continuous pixel
+coordinates, so integer ``u`` / ``v`` are the columns / rows of cell
+centres.
+
+References
+----------
+.. [1] W.H. Press et al., Numerical Recipes, 3rd ed., Cambridge University
+   Press, 2007, sec. 3.6 (bilinear interpolation: linear in each coordinate
+   inside a cell, so quadratic along a straight line).
+.. [2] K.E. Atkinson, An Introduction to Numerical Analysis, 2nd ed., Wiley,
+   1989, sec. 3.2 (error of polynomial interpolation).
+"""
+
+import numpy as np
+
+__all__ = ["BOUND_M", "grid_line_crossings", "quadratic_vertex_stations", "exact_minimum_stations"]
+
+#: Stated bound [m]: the reported minimum clearance exceeds the true minimum along the path by at most this.
+BOUND_M = 1e-3
+
+
+def grid_line_crossings(stations_m, u, v):
+    """Where the chords between consecutive stations cross integer ``u`` or ``v``.
+
+    Parameters
+    ----------
+    stations_m : numpy.ndarray
+        Increasing stations [m].
+    u, v : numpy.ndarray
+        Grid coordinates of the wire's plan position at each station [-].
+
+    Returns
+    -------
+    (stations_m, axis, level, slope) : tuple of numpy.ndarray
+        Station of each crossing on the chord [m], which coordinate crosses
+        (0 for ``u``, 1 for ``v``), the integer it crosses, and that
+        coordinate's rate along the chord [1/m]. Non-finite coordinates give
+        no crossing.
+    """
+    s = np.asarray(stations_m, dtype=float)
+    found = [_axis_crossings(s, np.asarray(coord, dtype=float), axis) for axis, coord in enumerate((u, v))]
+    return tuple(np.concatenate(parts) for parts in zip(*found))
+
+
+def _axis_crossings(s, coord, axis):
+    a, b = coord[:-1], coord[1:]
+    with np.errstate(invalid="ignore"):
+        low, high = np.minimum(a, b), np.maximum(a, b)
+        first = np.floor(low) + 1.0          # integers strictly above the lower end ...
+        count = np.where(np.isfinite(low + high), np.ceil(high) - first, 0.0)  # ... and strictly below the upper
+    count = np.maximum(count, 0).astype(np.int64)
+    segment = np.repeat(np.arange(len(a)), count)
+    offset = np.arange(count.sum()) - np.repeat(np.cumsum(count) - count, count)
+    level = first[segment] + offset
+    length = s[segment + 1] - s[segment]
+    slope = (b[segment] - a[segment]) / length
+    station = s[segment] + (level - a[segment]) / slope
+    return station, np.full(len(station), axis), level, slope
+
+
+def quadratic_vertex_stations(start_m, end_m, g_start, g_mid, g_end):
+    """Stations of the vertex of the quadratic through three equally spaced clearances, where it is a minimum.
+
+    Parameters
+    ----------
+    start_m, end_m : numpy.ndarray
+        Ends of each piece [m].
+    g_start, g_mid, g_end : numpy.ndarray
+        Clearance at the start, the middle and the end of each piece [m].
+
+    Returns
+    -------
+    numpy.ndarray
+        Vertex stations [m] of the pieces whose quadratic opens upwards with
+        its vertex strictly inside the piece (NaN clearances give none).
+    """
+    # q(t) = g_start + slope t + curvature t^2 on t in [0, 1], through the three clearances
+    curvature = 2.0 * (g_start - 2.0 * g_mid + g_end)
+    slope = -3.0 * g_start + 4.0 * g_mid - g_end
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t = -slope / (2.0 * curvature)
+        keep = (curvature > 0) & (t > 0) & (t < 1)
+    return start_m[keep] + t[keep] * (end_m[keep] - start_m[keep])
+
+
+def exact_minimum_stations(stations_m, grid_uv, clearance_m):
+    """Stations, given ones included, at which the minimum clearance along the wire is exact to :data:`BOUND_M`.
+
+    Parameters
+    ----------
+    stations_m : numpy.ndarray
+        Increasing stations along the span, no further apart than a cell [m].
+    grid_uv : callable
+        ``grid_uv(stations) -> (u, v)``: grid coordinates of the wire's plan
+        position at any stations (see the module docstring).
+    clearance_m : callable
+        ``clearance_m(stations) -> g``: wire elevation minus bilinear terrain
+        at any stations [m] (NaN over nodata).
+
+    Returns
+    -------
+    numpy.ndarray
+        Sorted unique stations within the span [m]: the given ones, the grid
+        line crossings and the vertices of the pieces between them.
+    """
+    s = np.asarray(stations_m, dtype=float)
+    first, last = s[0], s[-1]
+    u, v = grid_uv(s)
+    crossing, axis, level, slope = grid_line_crossings(s, u, v)
+    if len(crossing):
+        # one secant step from the chord onto the real plan path (curved under wind)
+        at = grid_uv(crossing)
+        residual = np.where(axis == 0, at[0], at[1]) - level
+        corrected = crossing - np.nan_to_num(residual) / slope
+        crossing = np.clip(corrected, first, last)
+    pieces = np.unique(np.concatenate([s, crossing]))
+    middle = (pieces[:-1] + pieces[1:]) / 2.0
+    g = clearance_m(np.concatenate([pieces, middle]))
+    g_ends, g_mid = g[:len(pieces)], g[len(pieces):]
+    vertex = quadratic_vertex_stations(pieces[:-1], pieces[1:], g_ends[:-1], g_mid, g_ends[1:])
+    return np.unique(np.concatenate([pieces, vertex]))

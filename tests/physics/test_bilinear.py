@@ -1,0 +1,53 @@
+"""Property test: the minimum over exact_minimum_stations is never above the brute-force minimum by more than
+the stated bound, on random rasters, spans and angles (pure numpy; the bilinear surface is written here)."""
+import numpy as np
+from hypothesis import given, settings, strategies as st
+
+from routesag.physics.bilinear import BOUND_M, exact_minimum_stations, grid_line_crossings
+
+
+def bilinear(grid, u, v):
+    n_rows, n_cols = grid.shape
+    u, v = np.clip(u, 0, n_cols - 1), np.clip(v, 0, n_rows - 1)
+    c0, r0 = np.minimum(np.floor(u).astype(int), n_cols - 2), np.minimum(np.floor(v).astype(int), n_rows - 2)
+    fu, fv = u - c0, v - r0
+    return ((grid[r0, c0] * (1 - fu) + grid[r0, c0 + 1] * fu) * (1 - fv)
+            + (grid[r0 + 1, c0] * (1 - fu) + grid[r0 + 1, c0 + 1] * fu) * fv)
+
+
+@settings(max_examples=60, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), angle=st.floats(0.0, 2 * np.pi), span=st.floats(5.0, 40.0),
+       catenary=st.floats(50.0, 3000.0), bend=st.floats(-0.01, 0.01))
+def test_reported_minimum_within_bound_of_brute_force(seed, angle, span, catenary, bend):
+    rng = np.random.default_rng(seed)
+    grid = rng.uniform(0.0, 10.0, (60, 60))          # cell steps up to 10 m on 1 m cells
+    start = np.array([10.0, 10.0]) + rng.uniform(0, 1, 2)
+    direction = np.array([np.cos(angle), np.sin(angle)])
+    normal = np.array([-direction[1], direction[0]])
+
+    def plan(s):  # a straight path, or bent like a blown-out wire (a parabola in plan)
+        offset = bend * s * (span - s) / span
+        return start[:, None] + direction[:, None] * s + normal[:, None] * offset
+
+    def wire_z(s):  # a catenary sagging into the terrain
+        return 12.0 + catenary * (np.cosh((s - span / 2) / catenary) - np.cosh(span / 2 / catenary))
+
+    def clearance(s):
+        u, v = plan(np.asarray(s))
+        return wire_z(np.asarray(s)) - bilinear(grid, u, v)
+
+    stations = np.linspace(0.0, span, int(np.ceil(span)) + 1)
+    found = exact_minimum_stations(stations, lambda s: tuple(plan(np.asarray(s))), clearance)
+    dense = np.linspace(0.0, span, 200_001)
+    brute = clearance(dense).min()
+    slope_margin = 10.0 * 1.5 * (span / 200_000) / 2   # the brute force's own sampling error
+    assert clearance(found).min() <= brute + BOUND_M
+    assert clearance(found).min() >= brute - slope_margin
+
+
+def test_crossings_of_a_diagonal_chord():
+    # From (0.2, 0.3) to (2.2, 2.3) over 2 m: crosses u = 1, 2 and v = 1, 2, at stations found by hand.
+    s, axis, level, _ = grid_line_crossings(np.array([0.0, 2.0]), np.array([0.2, 2.2]), np.array([0.3, 2.3]))
+    order = np.argsort(s)
+    np.testing.assert_allclose(s[order], [0.7, 0.8, 1.7, 1.8])
+    assert list(axis[order]) == [1, 0, 1, 0] and list(level[order]) == [1, 1, 2, 2]
