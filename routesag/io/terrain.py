@@ -213,18 +213,8 @@ class TerrainSampler:
 
         ``u = col - 0.5``, ``v = row - 0.5`` (pixel (row, col) spans
         ``[col, col+1) x [row, row+1)``); the bilinear surface is smooth
-        between integer ``u`` and ``v`` and kinks across them.
-
-        Parameters
-        ----------
-        x, y : float or array_like
-            Point coordinates [CRS units].
-        crs : anything pyproj.CRS accepts, optional
-            CRS of ``x, y``; default the raster CRS.
-
-        Returns
-        -------
-        (u, v) : tuple of numpy.ndarray
+        between integer ``u`` and ``v`` and kinks across them. ``x, y`` [CRS units] and ``crs`` as in
+        :meth:`contains`; returns ``(u, v)`` as numpy arrays.
         """
         col_f, row_f = self._pixel_coords(*self._to_raster_xy(x, y, crs))
         return col_f - 0.5, row_f - 0.5
