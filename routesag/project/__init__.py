@@ -80,6 +80,7 @@ def _build_project(path: Path, s: dict, output) -> Project:
         pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
         wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],
         insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"],
+        insulator_max_swing_deg=s["insulators"]["max_swing_deg"],
         limits=[TensionLimit(**e) for e in s["limits"]],
         crossings_path=None if inputs["crossings"] is None else (base / inputs["crossings"]).resolve(),
         crossings_layer=inputs["crossings_layer"],

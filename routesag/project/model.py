@@ -174,6 +174,7 @@ class Project:
     wires: list[Wire] = field(default_factory=list)
     insulator_weight_n: float = 0.0
     insulator_wind_area_m2: float = 0.0
+    insulator_max_swing_deg: float = 60.0
     limits: list[TensionLimit] = field(default_factory=list)
     crossings_path: Path | None = None
     crossings_layer: str | None = None

@@ -152,6 +152,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "wind_area_m2": Key(NUMBER, 0.0, non_negative,
                             "area of one suspension string facing the wind; its wind load is the load "
                             "case's wind_pa times this area [m2]"),
+        "max_swing_deg": Key(NUMBER, 60.0, positive,
+                             "a suspension string swinging further than this from plumb is warned of [deg]"),
     },
     "clearance": {
         "ground_m": Key(NUMBER, None, positive, "shorthand for required_m.ground [m]"),

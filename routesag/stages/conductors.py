@@ -32,6 +32,8 @@ class ConductorProfile:
     catenary_m: float
     blowout_deg: float
     wire: str = ""
+    swung_sag_m: float = float("nan")   # mid-span sag in the swung plane, along the load [m]
+    blowout_m: float = float("nan")     # largest horizontal distance of the wire from its clamps' vertical plane [m]
 
 
 class BuildConductors(Stage):
@@ -138,8 +140,10 @@ def span_profile(row, station_m: float, terrain: TerrainView | None = None) -> C
     if terrain is not None:
         stations = terrain.exact_stations(stations, wire_at)
     xyz = wire_at(stations)
+    across = np.array([end[1] - start[1], start[0] - end[0]]) / s   # horizontal unit normal of the chord
     return ConductorProfile(
         span_id=row["span_id"], section_id=row["section_id"], load_case=row["load_case"],
         stations_m=stations, xyz=xyz, horizontal_tension_n=h,
         max_tension_n=float(geometry.max_tension_n), sag_m=float(geometry.sag_m),
-        low_point_m=low_m, catenary_m=float(geometry.catenary_m), blowout_deg=float(row["blowout_deg"]), wire=str(row.get("wire", "")))
+        low_point_m=low_m, catenary_m=float(geometry.catenary_m), blowout_deg=float(row["blowout_deg"]), wire=str(row.get("wire", "")),
+        swung_sag_m=float(geometry.swung_sag_m), blowout_m=float(np.max(np.abs((xyz[:, :2] - start[:2]) @ across))))

@@ -108,7 +108,8 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
         rows.append({"span_id": p.span_id, "section_id": p.section_id, "wire": p.wire, "load_case": p.load_case,
                      "horizontal_tension_n": p.horizontal_tension_n, "max_tension_n": p.max_tension_n,
                      "catenary_m": p.catenary_m, "sag_m": p.sag_m, "low_point_m": p.low_point_m,
-                     "blowout_deg": p.blowout_deg, "length_m": length_m})
+                     "blowout_deg": p.blowout_deg, "length_m": length_m,
+                     "swung_sag_m": p.swung_sag_m, "blowout_m": p.blowout_m})
     frame = pd.DataFrame(rows)
     if len(frame):
         ends = spans[["span_id", "from_id", "to_id"]]

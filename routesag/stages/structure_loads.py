@@ -48,7 +48,7 @@ class ComputeStructureLoads(Stage):
                                         "(strings plumb); the wires are then drawn from the swung clamps")
         loads = structure_loads(data["attachments"], data["wire_spans"], data["tensions"],
                                 project.insulator_weight_n, project.insulator_wind_area_m2)
-        for message in lifted_string_warnings(loads):
+        for message in lifted_string_warnings(loads) + wide_swing_warnings(loads, project.insulator_max_swing_deg):
             ctx.warn(message)
         return {"structure_loads": loads}
 
@@ -63,6 +63,18 @@ def lifted_string_warnings(loads: pd.DataFrame) -> list[str]:
                         f"up) in load case(s) {cases}; the clamp is kept plumb at rest, its lowest position, and "
                         "swing_deg is empty")
     return messages
+
+
+def wide_swing_warnings(loads: pd.DataFrame, limit_deg: float) -> list[str]:
+    """One warning per structure, wire and load case whose suspension string swings beyond ``limit_deg``.
+
+    A wide swing (a large line angle on a suspension structure, strong wind on a short weight span) brings
+    the wire towards the structure and makes the one-pass swing estimate coarse.
+    """
+    wide = loads[loads["swing_deg"].abs() > limit_deg]
+    return [f"structure {row.structure_id} wire {row.wire}, load case {row.load_case}: suspension string swings "
+            f"{abs(row.swing_deg):.1f} deg from plumb, more than [insulators] max_swing_deg = {limit_deg:g} deg"
+            for row in wide.itertuples()]
 
 
 def span_ends(wire_spans: pd.DataFrame, tensions: pd.DataFrame) -> pd.DataFrame:

@@ -85,3 +85,13 @@ def test_regular_stations_alone_overstate_the_ridge_clearance(tmp_path):
         profile = span_profile(row, 1.0)
         ground = sampler.sample(profile.xyz[:, 0], profile.xyz[:, 1], crs=CRS)
     assert float(np.min(profile.xyz[:, 2] - ground)) - truth > 0.5
+
+
+def test_blowout_is_the_swung_sag_times_sin_phi_on_a_level_span(tmp_path):
+    # Level span, wire clamps fixed: the wire's sideways reach at mid-span is D' sin(phi), D' the swung-plane sag
+    # (Grigsby (ed.), ch. 14: the conductor sags in the plane of the resultant load).
+    path, row, grid, truth = case(tmp_path, 30.0, True)
+    profile = span_profile(row, 1.0)
+    phi = row["blowout_rad"]
+    np.testing.assert_allclose(profile.blowout_m, profile.swung_sag_m * math.sin(phi), rtol=1e-6)
+    np.testing.assert_allclose(profile.sag_m, profile.swung_sag_m * math.cos(phi), rtol=1e-9)
