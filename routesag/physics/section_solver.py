@@ -1,0 +1,88 @@
+"""Change of state of a whole tension section, each span an exact inclined catenary.
+
+With free-swinging suspension strings every span of a section carries the
+same horizontal tension ``H``; the strings let wire slide between spans, so
+what is conserved between two states is the section's total unstressed
+length::
+
+    sum_i L_i(H) / (1 + T_mean,i(H) / EA)  /  (1 + alpha (t - t_ref))   is the same in both states,
+
+with ``L_i`` the exact inclined-catenary arc length and ``T_mean,i`` its
+arc-length mean tension (the elastic stretch of each span from its own mean
+tension). A level section of equal spans reduces to the ruling-span
+equation; a steep span, whose wire is longer and more tensioned than the
+level ruling span assumes, no longer does.
+
+References
+----------
+.. [1] Douglass, D.A. and Thrash, R., "Sag and tension of conductor", ch. 14
+   in L.L. Grigsby (ed.), Electric Power Generation, Transmission and
+   Distribution, 3rd ed., CRC Press, 2012 (ruling span and its limits on
+   inclined spans; unstressed length kept between states).
+.. [2] Irvine, H.M., Cable Structures, MIT Press, 1981, ch. 1 (elastic
+   catenary between supports at different heights).
+"""
+
+import numpy as np
+from scipy.optimize import brentq
+
+from routesag.errors import SolveError
+
+from .catenary import arc_length, mean_tension
+
+__all__ = ["section_unstressed_length", "section_change_of_state"]
+
+#: Slackest state tried, as in the ruling-span solver: half-span angle S/2c of the longest span.
+_MAX_HALF_SPAN_ANGLE = 300.0
+
+
+def section_unstressed_length(spans_m, dz_m, horizontal_tension_n, weight_n_m, axial_stiffness_n):
+    """Total unstressed length of the section's wire at the reference temperature [m].
+
+    Parameters
+    ----------
+    spans_m, dz_m : array-like
+        Horizontal span and height difference of each span [m].
+    horizontal_tension_n : float
+        Horizontal tension shared by the spans [N].
+    weight_n_m : float
+        Load per unit length [N/m].
+    axial_stiffness_n : float
+        EA [N].
+    """
+    spans, dz = np.asarray(spans_m, dtype=float), np.asarray(dz_m, dtype=float)
+    length = arc_length(spans, dz, horizontal_tension_n / weight_n_m)
+    tension = mean_tension(spans, dz, horizontal_tension_n, weight_n_m)
+    return float(np.sum(length / (1.0 + tension / axial_stiffness_n)))
+
+
+def section_change_of_state(spans_m, dz_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
+                            modulus_pa, area_m2, expansion_per_c):
+    """Horizontal tension in state 2 shared by every span of a tension section (scalar) [N].
+
+    Solves with ``brentq`` for the ``H2`` that keeps the section's total
+    unstressed length (see the module docstring), searching only tensions
+    up to ``EA`` (larger ones are a strain of 100 % or more, not physical).
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        If no tension between a half-span angle of 300 and ``EA`` satisfies it.
+    """
+    spans = np.asarray(spans_m, dtype=float)
+    axial_n = float(modulus_pa) * float(area_m2)
+    thermal = (1.0 + expansion_per_c * (temperature2_c - temperature1_c))
+    if not thermal > 0:
+        raise SolveError("section change of state impossible: thermal strain shrinks the wire to nothing")
+    target_m = section_unstressed_length(spans, dz_m, tension1_n, weight1_n_m, axial_n) * thermal
+
+    def residual(tension_n):
+        return section_unstressed_length(spans, dz_m, tension_n, weight2_n_m, axial_n) - target_m
+
+    low = weight2_n_m * float(spans.max()) / (2.0 * _MAX_HALF_SPAN_ANGLE)
+    high = axial_n
+    if not residual(low) > 0 > residual(high):
+        raise SolveError(f"section change of state has no solution with a horizontal tension between {low:.4g} N "
+                         f"and EA = {high:.4g} N (state 1 H = {tension1_n:g} N, t = {temperature1_c:g} C; "
+                         f"state 2 w = {weight2_n_m:g} N/m, t = {temperature2_c:g} C)")
+    return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
