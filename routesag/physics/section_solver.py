@@ -57,12 +57,15 @@ def section_unstressed_length(spans_m, dz_m, horizontal_tension_n, weight_n_m, a
 
 
 def section_change_of_state(spans_m, dz_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
-                            modulus_pa, area_m2, expansion_per_c):
+                            modulus_pa, area_m2, expansion_per_c, loaded_spans=None):
     """Horizontal tension in state 2 shared by every span of a tension section (scalar) [N].
 
     Solves with ``brentq`` for the ``H2`` that keeps the section's total
     unstressed length (see the module docstring), searching only tensions
     up to ``EA`` (larger ones are a strain of 100 % or more, not physical).
+    ``loaded_spans = (spans_m, dz_m)`` of state 2 when it hangs elsewhere
+    (in the plane swung by the wind: ``conductor3d.swung_span``); default
+    the spans of state 1.
 
     Raises
     ------
@@ -76,10 +79,12 @@ def section_change_of_state(spans_m, dz_m, tension1_n, weight1_n_m, temperature1
         raise SolveError("section change of state impossible: thermal strain shrinks the wire to nothing")
     target_m = section_unstressed_length(spans, dz_m, tension1_n, weight1_n_m, axial_n) * thermal
 
-    def residual(tension_n):
-        return section_unstressed_length(spans, dz_m, tension_n, weight2_n_m, axial_n) - target_m
+    spans2, dz2 = (spans, dz_m) if loaded_spans is None else loaded_spans
 
-    low = weight2_n_m * float(spans.max()) / (2.0 * _MAX_HALF_SPAN_ANGLE)
+    def residual(tension_n):
+        return section_unstressed_length(spans2, dz2, tension_n, weight2_n_m, axial_n) - target_m
+
+    low = weight2_n_m * float(np.max(spans2)) / (2.0 * _MAX_HALF_SPAN_ANGLE)
     high = axial_n
     if not residual(low) > 0 > residual(high):
         raise SolveError(f"section change of state has no solution with a horizontal tension between {low:.4g} N "

@@ -68,6 +68,7 @@ class Stringing:
     catenary_m: float | None = None
     creep_allowance_c: float | None = None
     from_limits: bool = False
+    method: str = "section"
 
     def state_temperature_c(self, temperature_c: float, condition: str) -> float:
         """Temperature at which the initial state stands for ``condition`` [degC].

@@ -114,6 +114,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "creep_allowance_c": Key(NUMBER, None, non_negative,
                                  "creep as an equivalent temperature increase of the final state [degC]"),
         "from_limits": Key(bool, False, doc="stringing tension: the largest that meets every [[limits]] entry"),
+        "method": Key(str, "section", one_of("section", "ruling_span"),
+                      "change of state of the whole section (exact inclined spans) or on the level ruling span"),
     },
     "load_cases": {
         "name": Key(str),

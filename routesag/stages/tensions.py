@@ -19,6 +19,7 @@ from routesag.errors import ProjectError, SolveError
 from routesag.physics.catenary import support_tensions
 from routesag.physics.conductor3d import swung_span
 from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_load
+from routesag.physics.section_solver import section_change_of_state
 from routesag.physics.state_change import change_of_state
 from routesag.pipeline import Stage
 from routesag.stages.limits import design_stringing_tension
@@ -145,8 +146,13 @@ def solve_case(where, case, h0_n, ruling_m, spans_m, dz_m, conductor, stringing,
                           ice_density_kg_m3)
     state_t = stringing.state_temperature_c(case.temperature_c, case.condition)
     try:
-        h = change_of_state(ruling_m, h0_n, float(bare_weight_n_m(c.mass_kg_m)), stringing.temperature_c,
-                            load.resultant_n_m, state_t, c.modulus_pa, c.area_m2, c.expansion_per_c)
+        states = (h0_n, float(bare_weight_n_m(c.mass_kg_m)), stringing.temperature_c, load.resultant_n_m, state_t,
+                  c.modulus_pa, c.area_m2, c.expansion_per_c)
+        if stringing.method == "section":  # state 2 hangs in the plane swung by the wind, as the 3D wire does
+            h = section_change_of_state(spans_m, dz_m, *states,
+                                        loaded_spans=swung_span(spans_m, dz_m, load.blowout_rad))
+        else:
+            h = change_of_state(ruling_m, *states)
     except SolveError as exc:
         raise SolveError(f"{where}, load case {case.name!r}: change of state cannot be solved ({exc})") from None
     plane_span, plane_dz = swung_span(spans_m, dz_m, load.blowout_rad)
