@@ -44,6 +44,8 @@ class SolveTensions(Stage):
                 # a bad stringing tension is one problem, not one per section
                 stringing_tension_n(project, wire.conductor, wire.stringing)
         rows, problems = [], []
+        ctx.notes["stringing_method"] = {w.name: w.stringing.method for _, s in data["sections"].iterrows()
+                                         for w in project.line_wires(s["line_id"])}
         for _, section in data["sections"].iterrows():
             for wire in project.line_wires(section["line_id"]):
                 spans = by_wire[(section["section_id"], wire.name)]
