@@ -62,23 +62,40 @@ def read_point_cloud(path, work_crs=None, corridor=None, crs=None, chunk_points=
     path = Path(path)
     try:
         reader_cm = laspy.open(str(path))
-    except (OSError, laspy.errors.LaspyException, ValueError) as exc:
+    except Exception as exc:  # laspy and its decoders raise many types (struct, lazrs, numpy) for bad bytes
         raise DataError(f"point cloud {path}: cannot be read as LAS/LAZ: {exc}") from None
     parts, n_read = [], 0
     with reader_cm as reader:
+        _check_point_count(reader.header, path)
         source_crs = crs or _header_crs(reader.header, path)
         transform = _transformer(source_crs, work_crs, path)
         try:
             for chunk in reader.chunk_iterator(chunk_points):
                 n_read += len(chunk)
                 parts.append(_keep(chunk, transform, corridor))
-        except (laspy.errors.LaspyException, ValueError, OSError) as exc:
+        except DataError:
+            raise
+        except Exception as exc:  # a damaged chunk: any decoder error, never a partial cloud
             raise DataError(f"point cloud {path}: damaged after {n_read} points: {exc}") from None
     x, y, z, cls = (np.concatenate([p[i] for p in parts]) if parts else np.empty(0) for i in range(4))
     cls = cls.astype(np.uint8)
     values, counts = np.unique(cls, return_counts=True)
     return PointCloud(x, y, z, cls, n_read, str(work_crs or source_crs),
                       {int(v): int(n) for v, n in zip(values, counts)})
+
+
+#: Largest credible LAZ compression ratio; LAZ typically holds a point in 1/5 to 1/10 of its LAS size.
+MAX_LAZ_RATIO = 50
+
+
+def _check_point_count(header, path):
+    """A damaged header claiming more points than the file can hold would decode for a very long time."""
+    size = path.stat().st_size
+    record_bytes = header.point_count * header.point_format.size
+    compressed = header.point_format.id >= 128 or path.suffix.lower() == ".laz" or header.are_points_compressed
+    if record_bytes > size * (MAX_LAZ_RATIO if compressed else 1):
+        raise DataError(f"point cloud {path}: the header claims {header.point_count} points, more than its "
+                        f"{size} bytes can hold (a damaged file)")
 
 
 def _keep(chunk, transform, corridor):

@@ -87,3 +87,27 @@ def test_not_a_point_cloud_is_a_data_error(tmp_path):
     bad.write_bytes(b"not a point cloud at all")
     with pytest.raises(DataError, match="bad.laz"):
         read_point_cloud(bad)
+
+
+@pytest.mark.parametrize("suffix", [".las", ".laz"])
+def test_truncated_or_corrupted_files_are_data_errors(tmp_path, suffix):
+    """Whatever the bytes: the points or a DataError naming the file, never another exception.
+
+    One damaged LAZ case (a corrupted CRS WKT) takes PROJ about 35 s to refuse; kept, as it shows that cost.
+    """
+    x, y, z, cls = random_points(3000)
+    good = write_cloud(tmp_path / f"good{suffix}", x, y, z, cls).read_bytes()
+    rng = np.random.default_rng(11)
+    cases = [good[:n] for n in (10, 200, 400, len(good) // 2, len(good) - 7)]
+    for _ in range(12):
+        damaged = bytearray(good)
+        for i in rng.integers(0, len(good), 20):
+            damaged[i] = int(rng.integers(0, 256))
+        cases.append(bytes(damaged))
+    for i, data in enumerate(cases):
+        path = tmp_path / f"case{i}{suffix}"
+        path.write_bytes(data)
+        try:
+            read_point_cloud(path, work_crs="EPSG:32633", chunk_points=700)
+        except DataError as exc:
+            assert path.name in str(exc)
