@@ -88,7 +88,7 @@ def several_layers(tmp: Path) -> Path:
 
 
 def bad_field_and_missing_terrain(tmp: Path) -> Path:
-    project = with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2], "kind": ["strain", "anchor"]})
+    project = with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2], "kind": ["strain", "pole"]})
     return edit(project, 'terrain = "terrain.tif"', 'terrain = "gone.tif"')
 
 
@@ -157,7 +157,7 @@ CASES = [
     Case("missing required field suggests the near name",
          lambda tmp: with_structures(tmp, {"structureid": ["P1", "P2"], "seq": [1, 2]}),
          DataError, (r"structures\.gpkg: missing required field 'structure_id' \(found 'structureid': "
-                     r"rename it to 'structure_id'\)",)),
+                     r"map it with \[inputs.fields\] structure_id = 'structureid'\)",)),
     Case("duplicate structure_id in a line",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P1"], "seq": [1, 2, 3]}),
          DataError, (r"line line: structure_id 'P1' appears more than once",)),
@@ -184,8 +184,9 @@ CASES = [
          (r"structure P2 \(row 2\): field 'attach_height_m' = 250 m; expected 0 < height <= 200 m",)),
     Case("unknown kind",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2],
-                                           "kind": ["strain", "anchor"]}),
-         DataError, (r"structure P2 \(row 2\): field 'kind' = 'anchor'; expected one of suspension, strain",)),
+                                           "kind": ["strain", "pole"]}),
+         DataError, (r"structure P2 \(row 2\): field 'kind' = 'pole' is not a known kind; accepted \(any case\): "
+                     r"suspension \(suspension\), tangent \(suspension\), strain \(strain\), dead-end \(strain\)",)),
     # -- places and CRS --------------------------------------------------------------------------------------
     Case("structure outside the terrain",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
@@ -280,7 +281,7 @@ CASES = [
          OutputError, (r"output folder .*no/such does not exist",)),
     # -- several problems of different files in one report ---------------------------------------------------
     Case("bad structures field and missing terrain reported together", bad_field_and_missing_terrain,
-         DataError, (r"2 problems found", r"field 'kind' = 'anchor'", r"gone\.tif cannot be opened: file not found")),
+         DataError, (r"2 problems found", r"field 'kind' = 'pole'", r"gone\.tif cannot be opened: file not found")),
 ]
 
 

@@ -17,7 +17,11 @@ import shapely
 from pyproj import CRS
 
 from routesag.errors import DataError
+from routesag.io.fields import apply_field_map, hint_for_missing
 from routesag.io.structures import _near, _numeric, _short, finite_coordinates, reproject
+
+#: routesag's fields of a crossings layer (the file's names map to them with [inputs.fields]).
+FIELDS = ("category", "required_m", "width_m")
 
 #: Categories measured against something other than a place on the ground.
 RESERVED_CATEGORIES = ("surface",)
@@ -54,7 +58,7 @@ def read_crossings_file(path, layer=None) -> gpd.GeoDataFrame:
 
 
 def check_crossings(gdf: gpd.GeoDataFrame, source, rules, work_crs, default_crs=None,
-                    layer=None) -> gpd.GeoDataFrame:
+                    layer=None, fields=None, warn=None) -> gpd.GeoDataFrame:
     """Validate a crossings layer and turn it into areas with their required clearance.
 
     Parameters
@@ -73,6 +77,10 @@ def check_crossings(gdf: gpd.GeoDataFrame, source, rules, work_crs, default_crs=
         CRS for a layer that has none (``[inputs] crs``).
     layer : str, optional
         Layer name for messages.
+    fields : dict, optional
+        ``[inputs.fields]``: routesag field name -> the file's field name.
+    warn : callable, optional
+        Called with each warning (fields that look like routesag's but are not mapped).
 
     Returns
     -------
@@ -90,12 +98,15 @@ def check_crossings(gdf: gpd.GeoDataFrame, source, rules, work_crs, default_crs=
     """
     where = f"crossings file {source}" + ("" if layer is None else f", layer {layer!r}")
     problems: list[str] = []
+    gdf, warnings = apply_field_map(gdf, fields, FIELDS, where)
+    for message in warnings:
+        (warn or (lambda m: None))(message)
     if gdf.crs is None and default_crs:
         gdf = gdf.set_crs(default_crs)
     if gdf.crs is None:
         problems.append(f"{where}: no CRS; give the layer a CRS or set [inputs] crs in the project file")
     if "category" not in gdf.columns:
-        problems.append(f"{where}: missing required field 'category'{_near('category', gdf.columns)}")
+        problems.append(f"{where}: missing required field 'category'{hint_for_missing('category', gdf.columns)}")
     if problems:
         raise DataError(problems)
     categories = gdf["category"].astype("string").str.strip()

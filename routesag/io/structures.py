@@ -18,16 +18,34 @@ from pyproj import CRS
 from pyproj.exceptions import CRSError, ProjError
 
 from routesag.errors import DataError
+from routesag.io.fields import (
+    apply_field_map, coordinate_columns, decimal_commas_to_numbers, hint_for_missing, sniff_separator,
+)
 from routesag.project import MAX_ATTACH_HEIGHT_M
 
 REQUIRED_FIELDS = ("structure_id", "seq")
 OPTIONAL_FIELDS = ("line_id", "kind", "attach_height_m", "ground_z_m", "insulator_m")
+FIELDS = REQUIRED_FIELDS + OPTIONAL_FIELDS
 KINDS = ("suspension", "strain")
+#: The trade's words for a structure's kind (lower case; spaces and underscores read as hyphens).
+KIND_WORDS = {"suspension": "suspension", "tangent": "suspension",
+              "strain": "strain", "dead-end": "strain", "deadend": "strain", "anchor": "strain",
+              "angle-strain": "strain", "terminal": "strain"}
+#: Metres per unit of the height attributes ([inputs] height_units).
+HEIGHT_FACTORS = {"m": 1.0, "ft": 0.3048, "ftUS": 1200.0 / 3937.0}
+#: Heights all above this, in a feet CRS with no height_units, are probably feet [m] (common practice:
+#: distribution and transmission attachment heights are mostly 8-30 m, 25-100 ft).
+FEET_SUSPECT_MIN = 30.0
 DEFAULT_LINE_ID = "line"
 
 
-def read_structures_file(path, layer=None, crs=None) -> gpd.GeoDataFrame:
-    """Read structures from any vector source GDAL reads, or a CSV with x, y.
+def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=None) -> gpd.GeoDataFrame:
+    """Read structures from any vector source GDAL reads, or a CSV with coordinate columns.
+
+    A CSV's separator (, ; tab |) is sniffed and decimal commas are read; its
+    coordinate columns are ``x_column``/``y_column`` or a recognised pair
+    (x/y, easting/northing, lon/lat ...). ``gdf.attrs["note"]`` says which
+    were used.
 
     Parameters
     ----------
@@ -36,13 +54,15 @@ def read_structures_file(path, layer=None, crs=None) -> gpd.GeoDataFrame:
     layer : str, optional
         Layer inside a multi-layer source.
     crs : str, optional
-        CRS for a source that has none (always needed for CSV).
+        CRS for a source that has none (needed for a CSV without lon/lat columns).
+    x_column, y_column : str, optional
+        A CSV's coordinate columns.
     """
     path = Path(path)
     if not path.is_file():
         raise DataError(f"structures file {path}: not found")
-    if path.suffix.lower() == ".csv":
-        return _read_csv(path, crs)
+    if path.suffix.lower() in (".csv", ".txt"):
+        return _read_csv(path, crs, x_column, y_column)
     try:
         layers = [name for name, _ in pyogrio.list_layers(path)]
     except Exception as exc:  # GDAL raises several types for unreadable files
@@ -83,21 +103,28 @@ def _set_crs(gdf, crs, path):
                         "(give e.g. 'EPSG:32633')") from None
 
 
-def _read_csv(path: Path, crs) -> gpd.GeoDataFrame:
+def _read_csv(path: Path, crs, x_column=None, y_column=None) -> gpd.GeoDataFrame:
+    where = f"structures file {path}"
     try:
-        df = pd.read_csv(path)
+        with path.open(encoding="utf-8-sig", newline="") as fh:
+            separator = sniff_separator(fh.read(8192))
+        df = decimal_commas_to_numbers(pd.read_csv(path, sep=separator, encoding="utf-8-sig"))
     except Exception as exc:
-        raise DataError(f"structures file {path}: cannot be read as CSV ({_short(exc)})") from None
-    missing = [c for c in ("x", "y") if c not in df.columns]
-    if missing:
-        raise DataError([f"structures file {path}: missing column {c!r}{_near(c, df.columns)}" for c in missing])
+        raise DataError(f"{where}: cannot be read as CSV ({_short(exc)})") from None
+    df.columns = [str(c).strip() for c in df.columns]
+    x, y, degrees = coordinate_columns(df.columns, x_column, y_column, where)
+    note = f"CSV separator {separator!r}; coordinates from columns {x!r}, {y!r}"
+    if not crs and degrees:
+        crs, note = "EPSG:4326", note + " read as WGS 84 lon/lat (no [inputs] crs)"
     if not crs:
-        raise DataError(f"structures file {path}: a CSV carries no CRS; set [inputs] crs in the project file")
-    bad = [i for i in range(len(df)) if not (_is_number(df["x"].iloc[i]) and _is_number(df["y"].iloc[i]))]
+        raise DataError(f"{where}: a CSV carries no CRS; set [inputs] crs in the project file")
+    bad = [i for i in range(len(df)) if not (_is_number(df[x].iloc[i]) and _is_number(df[y].iloc[i]))]
     if bad:
-        raise DataError([f"structures file {path}: row {i + 1}: x/y must be numbers" for i in bad])
-    geometry = gpd.points_from_xy(df["x"].astype(float), df["y"].astype(float))
-    return _set_crs(gpd.GeoDataFrame(df.drop(columns=["x", "y"]), geometry=geometry), crs, path)
+        raise DataError([f"{where}: row {i + 1}: {x}/{y} must be numbers" for i in bad])
+    geometry = gpd.points_from_xy(df[x].astype(float), df[y].astype(float))
+    gdf = _set_crs(gpd.GeoDataFrame(df.drop(columns=[x, y]), geometry=geometry), crs, path)
+    gdf.attrs["note"] = note
+    return gdf
 
 
 def _short(exc: Exception) -> str:
@@ -120,22 +147,38 @@ def _near(name: str, columns) -> str:
     return f" (did you mean {close[0]!r}?)" if close else ""
 
 
-def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None) -> gpd.GeoDataFrame:
+def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None, *, fields=None,
+                     height_units=None, warn=None) -> gpd.GeoDataFrame:
     """Validate fields and geometry; return a clean frame with normalised columns.
 
-    Output columns: structure_id (str), line_id (str), seq (float), kind,
-    attach_height_m, ground_z_m (NaN when not surveyed), insulator_m
-    (suspension string length, 0 when not given), geometry (points).
+    Parameters
+    ----------
+    fields : dict, optional
+        ``[inputs.fields]``: routesag field name -> the file's field name.
+    height_units : {"m", "ft", "ftUS"}, optional
+        Unit of attach_height_m, insulator_m and ground_z_m (None: metres,
+        with a warning when they look like feet in a feet CRS).
+    warn : callable, optional
+        Called with each warning (unmapped look-alike fields, feet heights).
+
+    Output columns: structure_id (str), line_id (str), seq (float), kind
+    (suspension or strain), kind_given (the file's word), attach_height_m,
+    ground_z_m (NaN when not surveyed), insulator_m (suspension string
+    length, 0 when not given), geometry (points); heights in metres.
     """
     problems: list[str] = []
     where = f"structures file {source}"
+    warn = warn or (lambda message: None)
     if len(gdf) == 0:
         raise DataError(f"{where}: the layer is empty")
+    gdf, warnings = apply_field_map(gdf, fields, FIELDS, where)
+    for message in warnings:
+        warn(message)
     if gdf.crs is None:
         problems.append(f"{where}: no CRS; give the layer a CRS or set [inputs] crs in the project file")
     for name in REQUIRED_FIELDS:
         if name not in gdf.columns:
-            problems.append(f"{where}: missing required field {name!r}{_near(name, gdf.columns)}")
+            problems.append(f"{where}: missing required field {name!r}{hint_for_missing(name, gdf.columns)}")
     if problems:
         raise DataError(problems)
 
@@ -145,11 +188,13 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
     out["line_id"] = (gdf["line_id"].astype("string").fillna(DEFAULT_LINE_ID)
                       if "line_id" in gdf.columns else DEFAULT_LINE_ID)
     out["seq"] = _numeric(gdf["seq"], "seq", labels, where, problems, required=True)
-    out["kind"] = _kinds(gdf, labels, where, problems)
-    out["attach_height_m"] = _attach_heights(gdf, default_attach_height_m, labels, where, problems)
-    out["ground_z_m"] = (_numeric(gdf["ground_z_m"], "ground_z_m", labels, where, problems)
+    out["kind"], out["kind_given"] = _kinds(gdf, labels, where, problems)
+    factor = HEIGHT_FACTORS[height_units or "m"]
+    _warn_feet(gdf, height_units, default_attach_height_m, where, warn)
+    out["attach_height_m"] = _attach_heights(gdf, default_attach_height_m, factor, labels, where, problems)
+    out["ground_z_m"] = (factor * _numeric(gdf["ground_z_m"], "ground_z_m", labels, where, problems)
                          if "ground_z_m" in gdf.columns else np.nan)
-    out["insulator_m"] = _insulators(gdf, out["attach_height_m"].to_numpy(), labels, where, problems)
+    out["insulator_m"] = _insulators(gdf, out["attach_height_m"].to_numpy(), factor, labels, where, problems)
     for i, sid in enumerate(out["structure_id"]):
         if pd.isna(sid) or sid == "":
             problems.append(f"{where}: {labels[i]}: field 'structure_id' is empty")
@@ -158,6 +203,20 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
     if problems:
         raise DataError(problems)
     return out
+
+
+def _warn_feet(gdf, height_units, default_m, where, warn) -> None:
+    """Heights that look like feet in a feet CRS, with no unit declared: a loud warning."""
+    if height_units is not None or gdf.crs is None or "attach_height_m" not in gdf.columns:
+        return
+    axis = CRS(gdf.crs).axis_info
+    if not axis or not any(word in axis[0].unit_name.lower() for word in ("foot", "feet")):
+        return
+    heights = pd.to_numeric(gdf["attach_height_m"], errors="coerce").dropna()
+    if len(heights) and (heights > FEET_SUSPECT_MIN).all() and (default_m is None or default_m < heights.min() / 2):
+        warn(f"{where}: HEIGHTS MAY BE IN FEET: the CRS is in {axis[0].unit_name} and every attach_height_m is "
+             f"above {FEET_SUSPECT_MIN:g} (lowest {heights.min():g}); they are read as metres. Set "
+             "[inputs] height_units = \"ft\" (or \"ftUS\"), or \"m\" to confirm metres")
 
 
 def _label(i: int, sid) -> str:
@@ -174,26 +233,34 @@ def _numeric(series, name, labels, where, problems, required=False) -> np.ndarra
     return values
 
 
-def _kinds(gdf, labels, where, problems) -> list[str]:
+def _kinds(gdf, labels, where, problems) -> tuple[list[str], list[str]]:
+    """routesag's kind (suspension or strain) and the word the file gave, per structure."""
     if "kind" not in gdf.columns:
-        return ["suspension"] * len(gdf)
-    kinds = []
+        return ["suspension"] * len(gdf), [""] * len(gdf)
+    kinds, given = [], []
     for i, raw in enumerate(gdf["kind"]):
-        kind = "suspension" if pd.isna(raw) or str(raw).strip() == "" else str(raw).strip().lower()
-        if kind not in KINDS:
-            problems.append(f"{where}: {labels[i]}: field 'kind' = {raw!r}; expected one of {', '.join(KINDS)}")
-        kinds.append(kind)
-    return kinds
+        word = "" if pd.isna(raw) else str(raw).strip()
+        key = "-".join(word.lower().replace("_", " ").split())
+        kind = "suspension" if word == "" else KIND_WORDS.get(key)
+        if kind is None:
+            words = ", ".join(f"{w} ({k})" for w, k in KIND_WORDS.items())
+            problems.append(f"{where}: {labels[i]}: field 'kind' = {raw!r} is not a known kind; "
+                            f"accepted (any case): {words}")
+        kinds.append(kind or "suspension")
+        given.append(word)
+    return kinds, given
 
 
-def _attach_heights(gdf, default, labels, where, problems) -> np.ndarray:
-    if "attach_height_m" in gdf.columns:
-        heights = _numeric(gdf["attach_height_m"], "attach_height_m", labels, where, problems)
-    else:
-        heights = np.full(len(gdf), np.nan)
+def _attach_heights(gdf, default, factor, labels, where, problems) -> np.ndarray:
+    if "attach_height_m" not in gdf.columns:
+        if default is None:
+            problems.append(f"{where}: no field 'attach_height_m' and the project sets no [line] attach_height_m "
+                            f"default{hint_for_missing('attach_height_m', gdf.columns)}")
+        return np.full(len(gdf), np.nan if default is None else default)
+    heights = factor * _numeric(gdf["attach_height_m"], "attach_height_m", labels, where, problems)
     for i, h in enumerate(heights):
         if np.isnan(h):
-            if default is None:
+            if default is None and not _given(gdf["attach_height_m"].iloc[i]):
                 problems.append(f"{where}: {labels[i]}: field 'attach_height_m' is empty and the project "
                                 "sets no [line] attach_height_m default")
             continue
@@ -205,11 +272,15 @@ def _attach_heights(gdf, default, labels, where, problems) -> np.ndarray:
     return heights
 
 
-def _insulators(gdf, heights, labels, where, problems) -> np.ndarray:
+def _given(raw) -> bool:
+    return not (pd.isna(raw) or str(raw).strip() == "")
+
+
+def _insulators(gdf, heights, factor, labels, where, problems) -> np.ndarray:
     """Suspension string lengths [m]; empty means none (0). The wire must hang above the ground."""
     if "insulator_m" not in gdf.columns:
         return np.zeros(len(gdf))
-    lengths = _numeric(gdf["insulator_m"], "insulator_m", labels, where, problems)
+    lengths = factor * _numeric(gdf["insulator_m"], "insulator_m", labels, where, problems)
     for i, (length, height) in enumerate(zip(lengths, heights)):
         if length < 0 or length >= height:
             problems.append(f"{where}: {labels[i]}: field 'insulator_m' = {length:g} m; expected "

@@ -93,8 +93,9 @@ class TerrainSampler:
     sparse_tile = 64
     cache_mb = 64
 
-    def __init__(self, path, z_units="m"):
+    def __init__(self, path, z_units="m", crs=None):
         self._path = Path(path)
+        self.crs_note = ""
         if z_units not in Z_UNIT_FACTORS:
             raise DataError(f"terrain {self._path}: z_units {z_units!r} is not one of "
                             f"{', '.join(Z_UNIT_FACTORS)}")
@@ -103,12 +104,12 @@ class TerrainSampler:
         self._env = rasterio.Env(GDAL_CACHEMAX=self.cache_mb)
         self._env.__enter__()
         try:
-            self._ds = _open_single_band(self._path)
+            self._ds = _open_single_band(self._path, assigned_crs=crs)
         except BaseException:
             self._env.__exit__(None, None, None)
             raise
         try:
-            self._crs = _parse_crs(self._path, self._ds)
+            self._crs, self.crs_note = _parse_crs(self._path, self._ds, crs)
             self._horizontal_crs = _horizontal_part(self._crs)
             scale, offset = self._ds.scales[0], self._ds.offsets[0]
             self._scale = 1.0 if scale is None else float(scale)
@@ -403,8 +404,8 @@ class TerrainSampler:
         return t.a * cols + t.b * rows + t.c, t.d * cols + t.e * rows + t.f
 
 
-def _open_single_band(path):
-    """Open the raster and check it has a CRS and one band; DataError if not."""
+def _open_single_band(path, assigned_crs=None):
+    """Open the raster and check it has a CRS (its own or ``assigned_crs``) and one band; DataError if not."""
     if not path.is_file():
         raise DataError(f"terrain {path} cannot be opened: file not found"
                         + (" (it is a folder)" if path.is_dir() else ""))
@@ -414,8 +415,8 @@ def _open_single_band(path):
     except (rasterio.errors.RasterioError, OSError, UnicodeDecodeError) as exc:
         raise DataError(f"terrain {path} cannot be opened as a raster: {_first_line(exc)}") from None
     problem = None
-    if ds.crs is None or not ds.crs.to_wkt():
-        problem = f"terrain {path} has no CRS"
+    if (ds.crs is None or not ds.crs.to_wkt()) and not assigned_crs:
+        problem = f"terrain {path} has no CRS; set [inputs] terrain_crs in the project file"
     elif ds.count != 1:
         problem = f"terrain {path} has {ds.count} bands; exactly one elevation band is expected"
     if problem:
@@ -424,10 +425,14 @@ def _open_single_band(path):
     return ds
 
 
-def _parse_crs(path, ds):
-    """The raster CRS as :class:`pyproj.CRS`; DataError when PROJ cannot read it."""
+def _parse_crs(path, ds, assigned=None):
+    """The raster CRS as :class:`pyproj.CRS` (``assigned`` wins) and a note; DataError when PROJ cannot read it."""
     try:
-        return pyproj.CRS.from_wkt(ds.crs.to_wkt())
+        own = ds.crs.to_wkt() if ds.crs is not None else ""
+        if assigned:
+            said = f" (the file says {pyproj.CRS.from_wkt(own).to_string()})" if own else " (the file has none)"
+            return pyproj.CRS.from_user_input(assigned), f"terrain CRS {assigned} from [inputs] terrain_crs{said}"
+        return pyproj.CRS.from_wkt(own), ""
     except (pyproj.exceptions.CRSError, rasterio.errors.RasterioError) as exc:
         raise DataError(f"terrain {path} has a CRS that cannot be understood: {_first_line(exc)}") from None
 

@@ -79,6 +79,11 @@ ADDER_TABLE = {
     "above_kv": Key(NUMBER, DEFAULT_ADDER_ABOVE_KV, non_negative, "phase-to-ground threshold [kV]"),
 }
 
+#: [inputs.fields]: routesag's field names of the structures and crossings layers.
+FIELDS_TABLE = {name: Key(str, None, doc=f"the file's name of field {name}")
+                for name in ("structure_id", "seq", "line_id", "kind", "attach_height_m", "ground_z_m",
+                             "insulator_m", "category", "required_m", "width_m")}
+
 SCHEMA: dict[str, dict[str, Key]] = {
     "inputs": {
         "structures": Key(str, doc="structures layer: any vector source GDAL reads, or CSV with x, y"),
@@ -91,6 +96,14 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "surface": Key(str, None, doc="surface model raster: top of vegetation and buildings"),
         "surface_values": Key(str, "elevation", one_of("elevation", "height"),
                               "surface raster holds elevations (DSM) or heights above the terrain"),
+        "terrain_crs": Key(str, None, crs_text, doc="CRS of a terrain raster that has none"),
+        "x_column": Key(str, None, doc="CSV column of the x (easting or longitude) coordinate"),
+        "y_column": Key(str, None, doc="CSV column of the y (northing or latitude) coordinate"),
+        "height_units": Key(str, None, one_of("m", "ft", "ftUS"),
+                            "unit of attach_height_m, insulator_m and ground_z_m in the structures file "
+                            "(default m)"),
+        "fields": Key(dict, {}, doc="the file's field names: routesag name = \"file's name\"",
+                      table=FIELDS_TABLE),
     },
     "line": {
         "attach_height_m": Key(NUMBER, None, up_to(MAX_ATTACH_HEIGHT_M),
@@ -181,7 +194,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
 
 # Tables given as [[name]] arrays rather than [name].
 ARRAY_TABLES = {"load_cases", "wires", "limits"}
-REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases", "clearance"}
+REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases"}
 TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
 
 

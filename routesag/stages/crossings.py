@@ -27,7 +27,8 @@ class ReadCrossings(Stage):
             return {"crossings": empty_crossings(crs)}
         raw = read_crossings_file(project.crossings_path, project.crossings_layer)
         crossings = check_crossings(raw, project.crossings_path, project.clearance, crs, project.structures_crs,
-                                    layer=project.crossings_layer)
+                                    layer=project.crossings_layer,
+                                    fields=project.settings.get("inputs", {}).get("fields"), warn=ctx.warn)
         ctx.notes["crossings"] = crossings["category"].value_counts().sort_index().to_dict()
         return {"crossings": crossings}
 

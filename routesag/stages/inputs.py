@@ -4,6 +4,7 @@ from __future__ import annotations
 import numpy as np
 
 from routesag.errors import DataError
+from routesag.io.extents import extent_message
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
@@ -18,10 +19,11 @@ class ReadInputs(Stage):
     def run(self, data, ctx):
         project = data["project"]
         source = project.structures_path
-        structures, terrain = read_and_check(project)
+        structures, terrain = read_and_check(project, ctx)
         try:
+            original = structures.copy()
             structures, crs, note = to_working_crs(structures, source)
-            structures = locate_attachments(structures, terrain, source)
+            structures = locate_attachments(structures, terrain, source, original)
         except BaseException:
             terrain.close()
             raise
@@ -29,10 +31,12 @@ class ReadInputs(Stage):
         ctx.notes["crs_note"] = note
         ctx.notes["terrain_crs"] = terrain.crs.to_string()
         ctx.notes["terrain_z_note"] = terrain.z_unit_note
+        if terrain.crs_note:
+            ctx.notes["terrain_crs_note"] = terrain.crs_note
         return {"structures": structures, "terrain": terrain, "work_crs": crs}
 
 
-def read_and_check(project):
+def read_and_check(project, ctx=None):
     """Checked structures and the open terrain; problems of both are reported together.
 
     Raises
@@ -42,13 +46,23 @@ def read_and_check(project):
         field and a missing raster are fixed in one round.
     """
     problems, structures, terrain = [], None, None
+    inputs = project.settings.get("inputs", {})
+    warn = ctx.warn if ctx is not None else None
     try:
-        raw = read_structures_file(project.structures_path, project.structures_layer, project.structures_crs)
-        structures = check_structures(raw, project.structures_path, project.attach_height_m)
+        raw = read_structures_file(project.structures_path, project.structures_layer, project.structures_crs,
+                                   inputs.get("x_column"), inputs.get("y_column"))
+        if ctx is not None and raw.attrs.get("note"):
+            ctx.notes["structures_columns"] = raw.attrs["note"]
+        structures = check_structures(raw, project.structures_path, project.attach_height_m,
+                                      fields=inputs.get("fields"), height_units=inputs.get("height_units"),
+                                      warn=warn)
+        if ctx is not None:
+            ctx.notes["height_units"] = inputs.get("height_units") or "m (default)"
     except DataError as exc:
         problems.extend(exc.problems)
     try:
-        terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units)
+        terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units,
+                                 crs=inputs.get("terrain_crs"))
     except DataError as exc:
         problems.extend(exc.problems)
     if problems:
@@ -58,8 +72,13 @@ def read_and_check(project):
     return structures, terrain
 
 
-def locate_attachments(structures, terrain, source):
-    """Add x, y, ground_z_m (sampled where not surveyed) and attach_z_m; sort by line and seq."""
+def locate_attachments(structures, terrain, source, original=None):
+    """Add x, y, ground_z_m (sampled where not surveyed) and attach_z_m; sort by line and seq.
+
+    ``original`` (the structures in their own CRS, before any reprojection)
+    lets the message for a line that mostly misses the raster compare the
+    extents and guess the cause (see :mod:`routesag.io.extents`).
+    """
     s = structures.sort_values(["line_id", "seq"], kind="stable").reset_index(drop=True)
     s["x"] = s.geometry.x.to_numpy()
     s["y"] = s.geometry.y.to_numpy()
@@ -69,6 +88,11 @@ def locate_attachments(structures, terrain, source):
         ground[need] = terrain.sample(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs)
     missing = np.isnan(ground)
     if missing.any():
+        own = s if original is None else original
+        message = extent_message(own.geometry.x.to_numpy(), own.geometry.y.to_numpy(), own.crs, terrain,
+                                 f"structures file {source}")
+        if message:
+            raise DataError(message)
         inside = terrain.contains(s["x"].to_numpy()[missing], s["y"].to_numpy()[missing], crs=s.crs)
         raise DataError([f"structures file {source}: structure {sid}: no ground_z_m and the terrain "
                          f"{terrain.path} has no elevation there "

@@ -59,7 +59,7 @@ def test_single_structure_line():
 
 def test_missing_attach_height_without_default():
     gdf = frame(structure_id=["a", "b"], seq=[1, 2])
-    with pytest.raises(DataError, match="attach_height_m' is empty and the project sets no"):
+    with pytest.raises(DataError, match="no field 'attach_height_m' and the project sets no"):
         check_structures(gdf, "s.gpkg", None)
 
 
@@ -92,8 +92,8 @@ def test_csv_needs_crs_and_xy(tmp_path):
         read_structures_file(path)
     gdf = read_structures_file(path, crs=CRS)
     assert gdf.crs.to_epsg() == 32633 and len(gdf) == 2
-    path.write_text("structure_id,seq,east,north\na,1,1,1\n")
-    with pytest.raises(DataError, match="missing column 'x'"):
+    path.write_text("structure_id,seq,left,right\na,1,1,1\n")
+    with pytest.raises(DataError, match="no coordinate columns: expected one of x/y, easting/northing"):
         read_structures_file(path, crs=CRS)
 
 
