@@ -49,3 +49,16 @@ class PipelineError(RoutesagError):
 
 class OutputError(RoutesagError):
     """The output file cannot be written where asked."""
+
+
+#: Longest value echoed in a message [characters]; a longer one is cut in the middle.
+MESSAGE_VALUE_CHARS = 200
+
+
+def cut(text: str, limit: int = MESSAGE_VALUE_CHARS) -> str:
+    """``text`` cut in the middle to at most about ``limit`` characters, saying how much was left out."""
+    text = str(text)
+    if len(text) <= limit:
+        return text
+    keep = limit // 2
+    return f"{text[:keep]}...[{len(text) - 2 * keep} characters cut]...{text[-keep:]}"

@@ -269,6 +269,25 @@ CASES = [
          (r"\[clearance\] station_m = 1e-06 m asks for 9e\+08 stations per load case \(at most 1e\+07\)",)),
     Case("absurd default attach height", lambda tmp: good_survey(tmp, attach_height_m=300.0), ProjectError,
          (r"\[line\]: attach_height_m = 300\.0 must be > 0 and <= 200",)),
+    Case("temperature beyond any float (OverflowError)",
+         lambda tmp: edit(good_survey(tmp), "temperature_c = 90.0", "temperature_c = 1" + "0" * 400),
+         ProjectError, (r"\[\[load_cases\]\] #1: temperature_c = 1000.*characters cut.*0 is too large to be "
+                        r"a number",)),
+    Case("temperature 1e400 reads as infinity",
+         lambda tmp: edit(good_survey(tmp), "temperature_c = 90.0", "temperature_c = 1e400"),
+         ProjectError, (r"\[\[load_cases\]\] #1: temperature_c = inf must be a finite number",)),
+    Case("temperature NaN", lambda tmp: edit(good_survey(tmp), "temperature_c = 90.0", "temperature_c = nan"),
+         ProjectError, (r"\[\[load_cases\]\] #1: temperature_c = nan must be a finite number",)),
+    Case("temperature below absolute zero",
+         lambda tmp: edit(good_survey(tmp), "temperature_c = -20.0", "temperature_c = -300.0"),
+         ProjectError, (r"\[\[load_cases\]\] #2: temperature_c = -300\.0 is below absolute zero",)),
+    Case("stringing temperature below absolute zero",
+         lambda tmp: edit(good_survey(tmp), "temperature_c = 15.0", "temperature_c = -273.15"),
+         ProjectError, (r"\[stringing\]: temperature_c = -273\.15 is below absolute zero",)),
+    Case("TOML nested 200 000 deep (RecursionError)",
+         lambda tmp: (good_survey(tmp).write_text("a = " + "[" * 200_000 + "]" * 200_000 + "\n"),
+                      tmp / "project.toml")[1],
+         ProjectError, (r"project\.toml: tables or lists are nested too deeply to read",)),
     Case("plugin stage list holds a number",
          lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "out.gpkg"\n[pipeline]\nstages = [3]'),
          ProjectError, (r"\[pipeline\]: stages = \[3\] must list stage names as text",)),
@@ -310,6 +329,21 @@ def test_cli_exits_2_with_the_message_and_no_traceback(case, tmp_path):
         assert _search(pattern, result.output), f"{pattern!r} not in:\n{result.output}"
     assert not (tmp_path / "out.gpkg").exists()
     assert not [p.name for p in tmp_path.iterdir() if ".tmp-" in p.name]
+
+
+def test_project_file_with_a_utf8_byte_order_mark_runs(tmp_path):
+    """Editors on some systems start UTF-8 files with a BOM; TOML forbids it, so it is dropped, not reported."""
+    project = good_survey(tmp_path)
+    project.write_bytes(b"\xef\xbb\xbf" + project.read_bytes())
+    assert routesag.run(project).path == tmp_path / "out.gpkg"
+
+
+def test_long_values_are_cut_in_messages(tmp_path):
+    """A value pasted by mistake (here a 100 000-character name) is echoed cut, not in full."""
+    project = edit(good_survey(tmp_path), "temperature_c = 90.0", 'temperature_c = "' + "x" * 100_000 + '"')
+    result = CliRunner().invoke(main, ["run", str(project)])
+    assert result.exit_code == 2
+    assert "characters cut" in result.output and len(result.output) < 2000, len(result.output)
 
 
 def _search(pattern: str, text: str) -> bool:

@@ -8,11 +8,13 @@ import traceback
 
 import click
 
-from routesag.errors import InputError, OutputError, PipelineError, RoutesagError
+from routesag.errors import InputError, OutputError, PipelineError, RoutesagError, cut
 
 EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 1
 EXIT_VIOLATION = 3
+#: Longest message line printed [characters].
+MESSAGE_LINE_CHARS = 1000
 
 out_option = click.option("-o", "--out", type=click.Path(dir_okay=False), default=None,
                           help="Output GeoPackage (overrides [output] path).")
@@ -24,7 +26,8 @@ class CommandError(click.ClickException):
     """A library error shown as one clean message with its exit code."""
 
     def __init__(self, message: str, exit_code: int):
-        super().__init__(message)
+        # A value pasted by mistake (a 100 MB path) must not flood the terminal: cut each long line.
+        super().__init__("\n".join(cut(line, MESSAGE_LINE_CHARS) for line in message.splitlines()))
         self.exit_code = exit_code
 
 

@@ -47,14 +47,20 @@ def load_project(path, output=None) -> Project:
     return _build_project(path, settings, output)
 
 
+#: Some editors start UTF-8 files with a byte-order mark, which TOML does not allow; it is dropped.
+UTF8_BOM = b"\xef\xbb\xbf"
+
+
 def _read_toml(path: Path) -> dict:
     if not path.is_file():
         raise ProjectError(f"project file {path}: not found")
     try:
-        with path.open("rb") as fh:
-            return tomllib.load(fh)
+        text = path.read_bytes().removeprefix(UTF8_BOM).decode("utf-8")
+        return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ProjectError(f"project file {path}: TOML syntax error: {exc}") from None
+    except RecursionError:
+        raise ProjectError(f"project file {path}: tables or lists are nested too deeply to read") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise ProjectError(f"project file {path}: cannot be read: {exc}") from None
 

@@ -37,6 +37,10 @@ def up_to(high):
     return check
 
 
+def above_absolute_zero(value):
+    return None if value > -273.15 else "is below absolute zero (-273.15 degC)"
+
+
 def one_of(*choices):
     def check(value):
         return None if value in choices else f"must be one of {', '.join(map(repr, choices))}"
@@ -120,7 +124,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "expansion_per_c": Key(NUMBER, None, positive, "thermal expansion coefficient [1/degC]"),
     },
     "stringing": {
-        "temperature_c": Key(NUMBER, doc="conductor temperature of the known state [degC]"),
+        "temperature_c": Key(NUMBER, check=above_absolute_zero,
+                             doc="conductor temperature of the known state [degC]"),
         "horizontal_tension_kn": Key(NUMBER, None, positive, "horizontal tension of the known state [kN]"),
         "tension_percent_rts": Key(NUMBER, None, positive, "horizontal tension as % of rated strength"),
         "catenary_m": Key(NUMBER, None, positive, "catenary constant H/w of the bare wire [m]"),
@@ -132,7 +137,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "load_cases": {
         "name": Key(str),
-        "temperature_c": Key(NUMBER, doc="conductor temperature [degC]"),
+        "temperature_c": Key(NUMBER, check=above_absolute_zero, doc="conductor temperature [degC]"),
         "ice_mm": Key(NUMBER, 0.0, non_negative, "radial ice thickness [mm]"),
         "wind_pa": Key(NUMBER, 0.0, non_negative, "wind pressure on the iced conductor [Pa]"),
         "constant_n_m": Key(NUMBER, 0.0, non_negative, "load constant added to the resultant (NESC K) [N/m]"),

@@ -6,7 +6,7 @@ import math
 from typing import Any
 
 from routesag.catalog import PROPERTY_FIELDS, close_matches, find_conductor
-from routesag.errors import ProjectError
+from routesag.errors import ProjectError, cut
 from routesag.physics.clearance_rules import DEFAULT_REQUIRED_M
 from routesag.physics.loads import G
 from routesag.project.model import Conductor
@@ -174,9 +174,13 @@ def _check_value(where: str, key, value, spec: Key, problems, out: dict) -> None
     if message is None and spec.check is not None:
         message = spec.check(value)
     if message:
-        problems.append(f"{where}: {key} = {value!r} {message}")
+        problems.append(f"{where}: {key} = {cut(repr(value))} {message}")
     else:
         out[key] = float(value) if spec.kind is NUMBER else value
+
+
+#: Largest number a setting may hold; a bigger TOML integer cannot become a float (OverflowError).
+MAX_NUMBER = 1e300
 
 
 def _type_problem(value, spec: Key) -> str | None:
@@ -187,6 +191,8 @@ def _type_problem(value, spec: Key) -> str | None:
         return f"has the wrong type: expected {_kind_name(spec.kind)}, got {type(value).__name__}"
     if isinstance(value, float) and not math.isfinite(value):
         return "must be a finite number"
+    if isinstance(value, int) and not isinstance(value, bool) and float in kinds and abs(value) > MAX_NUMBER:
+        return "is too large to be a number"
     return None
 
 
