@@ -23,7 +23,7 @@ class RunResult:
         return self.layers[name]
 
 
-def run(project_path, out=None, progress=None) -> RunResult:
+def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_section=None) -> RunResult:
     """Run the pipeline of a project file and write its GeoPackage.
 
     Parameters
@@ -34,6 +34,13 @@ def run(project_path, out=None, progress=None) -> RunResult:
         Output GeoPackage; overrides ``[output] path``.
     progress : callable, optional
         Called with each stage's name as it starts.
+    workers : int, optional
+        Worker processes for the tension sections; 0 means one per core. Default 1: in this process
+        (the command line's default is ``[engine] workers``).
+    scheduler : str, optional
+        A dask scheduler address or ``local:N``; default ``[engine] scheduler``.
+    on_section : callable, optional
+        Called with (section_id, done, total) as each section finishes.
 
     Returns
     -------
@@ -43,7 +50,8 @@ def run(project_path, out=None, progress=None) -> RunResult:
     project = load_project(project_path, output=out)
     check_destination(project)
     ctx = RunContext()
-    data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress)
+    engine = engine_factory(project, workers, scheduler)
+    data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress, engine, on_section)
     layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
                      warnings=ctx.warnings, notes=ctx.notes)
@@ -71,11 +79,20 @@ def compute(project_path, targets, progress=None) -> dict:
     return _run_closing_terrain(chain, project, RunContext(), progress)
 
 
-def _run_closing_terrain(chain, project, ctx, progress) -> dict:
+def engine_factory(project: Project, workers=None, scheduler=None):
+    """A function of the number of sections giving the run's engine (arguments win over ``[engine]``)."""
+    from routesag.engine import make_engine
+
+    scheduler = scheduler or project.settings.get("engine", {}).get("scheduler") or None
+    workers = 1 if workers is None else workers
+    return lambda sections: make_engine(workers, scheduler, sections)
+
+
+def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=None) -> dict:
     """Run a chain from the project; the terrain reader is closed however the run ends."""
     data = {"project": project}
     try:
-        run_chain(chain, data, ctx, progress=progress)
+        run_chain(chain, data, ctx, progress=progress, engine=engine, on_section=on_section)
     finally:
         terrain = data.get("terrain")
         if terrain is not None and hasattr(terrain, "close"):

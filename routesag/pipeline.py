@@ -5,6 +5,13 @@ A stage is a class with a ``name``, the dataset names it ``requires`` and
 datasets it provides. Built-in and third-party stages are both registered in
 the ``routesag.stages`` entry-point group, so a plugin package adds or replaces
 a stage without touching the core.
+
+A stage with ``per_section = True`` runs once per tension section, on that
+section's share of the line-level datasets (see :func:`section_inputs`); the
+runner splits the chain into a line-level start, the section phase (run in
+process, in worker processes or on a dask cluster by an engine) and a
+line-level finish, whose stages receive the section results merged in
+section order (:func:`merge_results`).
 """
 from __future__ import annotations
 
@@ -12,7 +19,9 @@ import logging
 import time
 from dataclasses import dataclass, field
 from importlib.metadata import entry_points
-from typing import Any, ClassVar, Mapping
+from typing import Any, Callable, ClassVar, Mapping
+
+import pandas as pd
 
 from routesag.errors import PipelineError, RoutesagError
 
@@ -28,6 +37,8 @@ DEFAULT_CHAIN = ("read_inputs", "build_spans", "check_spans", "solve_tensions", 
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)
+# The dataset that defines the tension sections (one row each, with section_id, line_id, from_id, to_id).
+SECTIONS = "sections"
 
 
 class Stage:
@@ -37,6 +48,10 @@ class Stage:
     requires: ClassVar[tuple[str, ...]] = ()
     provides: ClassVar[tuple[str, ...]] = ()
     description: ClassVar[str] = ""
+    #: Run once per tension section (the heavy phase) instead of once per run.
+    per_section: ClassVar[bool] = False
+    #: Datasets of this stage written as extra output layers: dataset name -> geometry type (None: a table).
+    output_layers: ClassVar[Mapping[str, str | None]] = {}
 
     def run(self, data: Mapping[str, Any], ctx: "RunContext") -> dict[str, Any]:
         raise NotImplementedError
@@ -63,10 +78,29 @@ class RunContext:
 
     notes: dict[str, Any] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    #: Extra output layers contributed by stages (dataset name -> geometry type), in chain order.
+    output_layers: dict[str, str | None] = field(default_factory=dict)
 
     def warn(self, message: str) -> None:
+        if message in self.warnings:  # sections repeat line-wide warnings
+            return
         log.warning(message)
         self.warnings.append(message)
+
+    def absorb(self, other: "RunContext") -> None:
+        """Take a section's notes and warnings: counts (int notes) add up, other notes keep the first value."""
+        for key, value in other.notes.items():
+            if key == "stage_seconds":
+                mine = self.notes.setdefault("section_stage_seconds", {})
+                for name, seconds in value.items():
+                    mine[name] = round(mine.get(name, 0.0) + seconds, 3)
+            elif isinstance(value, int) and not isinstance(value, bool) and isinstance(self.notes.get(key), int):
+                self.notes[key] += value
+            else:
+                self.notes.setdefault(key, value)
+        for message in other.warnings:
+            if message not in self.warnings:
+                self.warnings.append(message)
 
 
 def available_stages() -> dict[str, Stage]:
@@ -107,6 +141,15 @@ def assemble_chain(extra: list[str] = (), registry: Mapping[str, Stage] | None =
     return order_stages(chain)
 
 
+def effective_requires(stage: Stage, stages: list[Stage]) -> tuple[str, ...]:
+    """What a stage needs before it runs: its ``requires`` and, for the provider of ``layers``, every
+    extra output layer contributed by the other stages."""
+    if "layers" not in stage.provides:
+        return tuple(stage.requires)
+    extra = [d for s in stages if s is not stage for d in s.output_layers]
+    return tuple(dict.fromkeys(list(stage.requires) + extra))
+
+
 def order_stages(stages: list[Stage]) -> list[Stage]:
     """Topological order by requires/provides (stable for the given order)."""
     providers: dict[str, str] = {d: "<start>" for d in INITIAL_DATASETS}
@@ -116,12 +159,13 @@ def order_stages(stages: list[Stage]) -> list[Stage]:
                 raise PipelineError(f"dataset {dataset!r} is provided by both {providers[dataset]!r} "
                                     f"and {stage.name!r}")
             providers[dataset] = stage.name
-    missing = [f"{s.name!r} requires {d!r}" for s in stages for d in s.requires if d not in providers]
+    requires = {s.name: effective_requires(s, stages) for s in stages}
+    missing = [f"{s.name!r} requires {d!r}" for s in stages for d in requires[s.name] if d not in providers]
     if missing:
         raise PipelineError("no stage provides what is required: " + "; ".join(missing))
     ordered, have, pending = [], set(INITIAL_DATASETS), list(stages)
     while pending:
-        ready = [s for s in pending if set(s.requires) <= have]
+        ready = [s for s in pending if set(requires[s.name]) <= have]
         if not ready:
             raise PipelineError("stages form a cycle: " + ", ".join(s.name for s in pending))
         ordered.append(ready[0])
@@ -145,9 +189,65 @@ def stages_for(chain: list[Stage], targets) -> list[Stage]:
     return [s for s in chain if s.name in needed]
 
 
-def run_chain(chain: list[Stage], data: dict[str, Any], ctx: RunContext, progress=None) -> dict[str, Any]:
-    """Run stages in order; each stage's result is checked against its provides."""
+@dataclass
+class Phases:
+    """A chain cut in three: line-level start, per-section stages, line-level finish (each in chain order)."""
+
+    start: list[Stage]
+    section: list[Stage]
+    finish: list[Stage]
+
+    @property
+    def section_inputs(self) -> tuple[str, ...]:
+        """Datasets the section stages take from the line-level start."""
+        made = {d for s in self.section for d in s.provides}
+        return tuple(dict.fromkeys(d for s in self.section for d in s.requires if d not in made))
+
+    @property
+    def section_outputs(self) -> tuple[str, ...]:
+        """Section datasets the finish (or the run's caller) needs: everything the finish requires, the extra
+        output layers, and every section dataset when nothing follows."""
+        made = [d for s in self.section for d in s.provides]
+        if not self.finish:
+            return tuple(made)
+        wanted = {d for s in self.finish for d in effective_requires(s, self.finish + self.section)}
+        wanted |= {d for s in self.section for d in s.output_layers}
+        return tuple(d for d in made if d in wanted)
+
+
+def split_phases(chain: list[Stage]) -> Phases:
+    """Cut an ordered chain into :class:`Phases`.
+
+    A line-level stage belongs to the finish when it needs, directly or
+    through another finish stage, what a section stage provides; otherwise to
+    the start. Raises PipelineError when a section stage needs a finish dataset.
+    """
+    downstream = {d for s in chain if s.per_section for d in s.provides}
+    section_needs = {d for s in chain if s.per_section for d in s.requires}
+    start, section, finish = [], [], []
     for stage in chain:
+        # A line-level stage that sits between section stages (a plugin replacing one) runs per section too.
+        between = set(effective_requires(stage, chain)) & downstream and set(stage.provides) & section_needs
+        if stage.per_section or between:
+            section.append(stage)
+            downstream |= set(stage.provides)
+        elif set(effective_requires(stage, chain)) & downstream:
+            finish.append(stage)
+            downstream |= set(stage.provides)
+        else:
+            start.append(stage)
+    late = {d for s in finish for d in s.provides}
+    clash = [f"{s.name!r} needs {d!r}" for s in section for d in s.requires if d in late]
+    if clash:
+        raise PipelineError("a per-section stage needs a line-level result made after the sections: "
+                            + "; ".join(clash))
+    return Phases(start, section, finish)
+
+
+def run_stages(stages: list[Stage], data: dict[str, Any], ctx: RunContext, progress=None,
+               where: str = "") -> dict[str, Any]:
+    """Run stages in order; each stage's result is checked against its provides."""
+    for stage in stages:
         start = time.perf_counter()
         if progress:
             progress(stage.name)
@@ -156,5 +256,146 @@ def run_chain(chain: list[Stage], data: dict[str, Any], ctx: RunContext, progres
         if missing:
             raise RoutesagError(f"stage {stage.name!r} did not provide {', '.join(sorted(missing))}")
         data.update(result)
-        ctx.notes.setdefault("stage_seconds", {})[stage.name] = round(time.perf_counter() - start, 3)
+        for name, geometry in stage.output_layers.items():
+            ctx.output_layers.setdefault(name, geometry)
+        seconds = time.perf_counter() - start
+        ctx.notes.setdefault("stage_seconds", {})[stage.name] = round(seconds, 3)
+        if not stage.per_section:
+            log.info("stage %s%s: %.2f s", stage.name, where, seconds)
     return data
+
+
+def run_chain(chain: list[Stage], data: dict[str, Any], ctx: RunContext, progress=None, engine=None,
+              on_section: Callable[[str, int, int], None] | None = None) -> dict[str, Any]:
+    """Run a chain: the line-level start, every tension section (through ``engine``), then the finish.
+
+    ``engine`` maps section tasks (default: in this process, see
+    :mod:`routesag.engine`); it may also be a function of the number of
+    sections that makes the engine, which is then closed after the sections.
+    ``on_section(section_id, done, total)`` is called as each section's
+    results arrive.
+    """
+    phases = split_phases(chain)
+    run_stages(phases.start, data, ctx, progress)
+    if phases.section:
+        if progress:
+            for stage in phases.section:
+                progress(stage.name)
+        data.update(run_sections(phases, data, ctx, engine, on_section))
+    for name, geometry in ((n, g) for s in phases.section for n, g in s.output_layers.items()):
+        ctx.output_layers.setdefault(name, geometry)
+    return run_stages(phases.finish, data, ctx, progress)
+
+
+@dataclass
+class SectionTask:
+    """Everything one tension section needs, picklable (rasters travel as references, see engine)."""
+
+    section_id: str
+    stages: list[Stage]
+    inputs: dict[str, Any]
+    outputs: tuple[str, ...]
+
+
+def run_section(task: SectionTask, open_rasters: Callable[[dict], dict] = lambda d: d) -> tuple[dict, RunContext]:
+    """Run the section stages on one section's inputs; returns the wanted outputs and the section's context."""
+    ctx = RunContext()
+    data = open_rasters(dict(task.inputs))
+    start = time.perf_counter()
+    run_stages(task.stages, data, ctx)
+    ctx.notes.setdefault("section_seconds", {})[task.section_id] = round(time.perf_counter() - start, 3)
+    return {name: data[name] for name in task.outputs}, ctx
+
+
+def section_tasks(phases: Phases, data: Mapping[str, Any]):
+    """One :class:`SectionTask` per row of ``sections``, in order, each with its share of the inputs."""
+    if SECTIONS not in data:
+        raise PipelineError(f"per-section stages need the {SECTIONS!r} dataset")
+    sections = data[SECTIONS]
+    shares = {name: split_by_section(data[name], data) for name in phases.section_inputs}
+    for section_id in sections["section_id"]:
+        inputs = {name: share(section_id) for name, share in shares.items()}
+        yield SectionTask(str(section_id), phases.section, inputs, phases.section_outputs)
+
+
+def split_by_section(value, data: Mapping[str, Any]) -> Callable[[str], Any]:
+    """A function section_id -> the section's share of a line-level dataset.
+
+    Frames with a ``section_id`` column keep that section's rows; frames keyed
+    by structure (``line_id``, ``structure_id``) keep the rows of the section's
+    structures, including both ends. Anything else is shared whole.
+    """
+    if not isinstance(value, pd.DataFrame) or "spans" not in data:
+        return lambda section_id: value
+    if "section_id" in value.columns:
+        groups = {k: g for k, g in value.groupby("section_id", sort=False)}
+    elif {"line_id", "structure_id"} <= set(value.columns):
+        spans = data["spans"]
+        ends = pd.concat([spans[["line_id", "from_id", "section_id"]].rename(columns={"from_id": "structure_id"}),
+                          spans[["line_id", "to_id", "section_id"]].rename(columns={"to_id": "structure_id"})])
+        ends = ends.drop_duplicates().astype({"line_id": str, "structure_id": str})
+        keyed = value.assign(_line=value["line_id"].astype(str), _structure=value["structure_id"].astype(str))
+        keyed = keyed.reset_index(drop=True).reset_index(names="_row")
+        joined = keyed.merge(ends.rename(columns={"line_id": "_line", "structure_id": "_structure",
+                                                  "section_id": "_section"}), on=["_line", "_structure"])
+        groups = {k: value.iloc[g.sort_values("_row")["_row"].to_numpy()]
+                  for k, g in joined.groupby("_section", sort=False)}
+    else:
+        return lambda section_id: value
+    empty = value.iloc[:0]
+    return lambda section_id: groups.get(section_id, empty)
+
+
+def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=None) -> dict[str, Any]:
+    """Run every section through ``engine`` and merge the results in section order."""
+    from routesag.engine import InProcess  # the engine module imports this one
+
+    tasks = list(section_tasks(phases, data))
+    made = engine is not None and not hasattr(engine, "map")
+    engine = engine(len(tasks)) if made else (engine or InProcess())
+    parts: list[dict] = []
+    try:
+        for done, (result, section_ctx) in enumerate(engine.map(tasks), start=1):
+            parts.append(result)
+            ctx.absorb(section_ctx)
+            section_id = tasks[done - 1].section_id
+            log.info("section %s done (%d of %d) in %.2f s", section_id, done, len(tasks),
+                     section_ctx.notes.get("section_seconds", {}).get(section_id, float("nan")))
+            if on_section:
+                on_section(section_id, done, len(tasks))
+    finally:
+        if made:
+            engine.close()
+    ctx.notes["engine"] = getattr(engine, "name", type(engine).__name__)
+    return {name: merge_results([p[name] for p in parts]) for name in phases.section_outputs}
+
+
+def merge_results(values: list) -> Any:
+    """One dataset from its per-section parts, in section order.
+
+    Profiles and lists are concatenated, frames stacked (columns in first-seen
+    order), dicts joined; a section dataset of any other type cannot be merged.
+    """
+    from routesag.profiles import Profiles
+
+    if not values:
+        return None
+    first = values[0]
+    if isinstance(first, Profiles):
+        return Profiles.concat(values)
+    if isinstance(first, pd.DataFrame):
+        filled = [v for v in values if len(v)]
+        if not filled:
+            return first
+        return pd.concat(filled, ignore_index=True)
+    if isinstance(first, list):
+        return [item for v in values for item in v]
+    if isinstance(first, dict):
+        merged = type(first)()
+        for v in values:
+            merged.update(v)
+        return merged
+    if first is None:
+        return None
+    raise PipelineError(f"a per-section dataset of type {type(first).__name__} cannot be merged over sections; "
+                        "return a DataFrame, list, dict or Profiles")

@@ -9,6 +9,7 @@ import contextlib
 import math
 import sys
 import threading
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -96,12 +97,14 @@ class TerrainSampler:
     def __init__(self, path, z_units="m", crs=None):
         self._path = Path(path)
         self.crs_note = ""
+        self._z_units = z_units
         if z_units not in Z_UNIT_FACTORS:
             raise DataError(f"terrain {self._path}: z_units {z_units!r} is not one of "
                             f"{', '.join(Z_UNIT_FACTORS)}")
         # A bounded block cache for the sampler's life: GDAL's default (5 % of RAM)
         # would keep every block a long line touches, so memory would grow with the raster.
-        self._env = rasterio.Env(GDAL_CACHEMAX=self.cache_mb)
+        # rasterio hands an integer GDAL_CACHEMAX to GDALSetCacheMax64, which counts bytes: pass bytes.
+        self._env = rasterio.Env(GDAL_CACHEMAX=int(self.cache_mb) * 1024 * 1024)
         self._env.__enter__()
         try:
             self._ds = _open_single_band(self._path, assigned_crs=crs)
@@ -130,6 +133,13 @@ class TerrainSampler:
         self.last_window = None
 
     # -- lifecycle -----------------------------------------------------------------
+    def reference(self) -> "RasterRef":
+        """What another process needs to open this raster itself (an open handle cannot be pickled)."""
+        return RasterRef(str(self._path), self._z_units)
+
+    def __reduce__(self):
+        raise TypeError("a TerrainSampler holds an open raster and cannot be pickled; send .reference()")
+
     def __enter__(self):
         return self
 
@@ -515,3 +525,21 @@ def _resolve_z_factor(z_units, declared):
     if declared is not None and z_units != "m":
         note += f" (raster CRS declares {declared[0]!r}; configured z_units kept)"
     return configured, note
+
+
+@dataclass(frozen=True)
+class RasterRef:
+    """A raster by path and vertical unit; ``open()`` gives this process's sampler of it (opened once)."""
+
+    path: str
+    z_units: str = "m"
+
+    def open(self) -> TerrainSampler:
+        sampler = _OPEN_IN_PROCESS.get(self)
+        if sampler is None:
+            sampler = _OPEN_IN_PROCESS[self] = TerrainSampler(self.path, z_units=self.z_units)
+        return sampler
+
+
+#: Samplers opened by references in this (worker) process, kept for the next section.
+_OPEN_IN_PROCESS: dict[RasterRef, TerrainSampler] = {}

@@ -195,6 +195,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
     "pipeline": {
         "stages": Key(list, [], list_of_text, doc="stages to add to (or replace in) the built-in chain"),
     },
+    "engine": {
+        "workers": Key(int, 0, non_negative, doc="worker processes for the tension sections (0: one per core)"),
+        "scheduler": Key(str, "", doc="dask scheduler address (tcp://host:port) or local:N; empty: no dask"),
+    },
 }
 
 # Tables given as [[name]] arrays rather than [name].

@@ -11,12 +11,14 @@ import numpy as np
 import pandas as pd
 
 from routesag.pipeline import Stage
+from routesag.profiles import profile_identity, runs, station_edges, station_lengths  # noqa: F401 (re-exported)
 
 
 class CheckClearance(Stage):
     name = "check_clearance"
     requires = ("project", "conductors", "ground", "station_rules", "surface")
     provides = ("clearance", "violations")
+    per_section = True
     description = ("vertical clearance per station against its category's required value, 3D distance to the "
                    "surface model; one violation per stretch")
 
@@ -24,8 +26,9 @@ class CheckClearance(Stage):
         rules = data["project"].clearance
         record_rules(rules, ctx)
         summaries, violations = [], []
-        for profile, ground, (required, category), surface in zip(
-                data["conductors"], data["ground"], data["station_rules"], data["surface"]):
+        for profile in data["conductors"]:
+            ground, (required, category) = data["ground"].of(profile), data["station_rules"].of(profile)
+            surface = data["surface"].of(profile)
             clearance = profile.xyz[:, 2] - ground
             if not rules.checks(profile.load_case):
                 summaries.append(summarise(profile, clearance, np.nan, status="unchecked"))
@@ -49,32 +52,6 @@ def record_rules(rules, ctx) -> None:
         "phase_to_ground_kv": None if rules.voltage_kv is None else round(rules.phase_to_ground_kv, 3),
         "per_kv_m": rules.adder_per_kv_m, "above_kv": rules.adder_above_kv, "adder_m": round(rules.adder_m, 4)}
     ctx.notes["clearance_cases"] = "all" if rules.cases is None else list(rules.cases)
-
-
-def profile_identity(profile) -> dict:
-    """Columns that name a profile: span, load case and, when the profile has one, the wire."""
-    identity = {"span_id": profile.span_id, "load_case": profile.load_case}
-    wire = getattr(profile, "wire", None)
-    if wire is not None:
-        identity["wire"] = wire
-    return identity
-
-
-def station_edges(stations_m: np.ndarray) -> np.ndarray:
-    """Where each station's share of the wire begins and ends: the span ends and the mid-points between [m]."""
-    return np.concatenate([[stations_m[0]], (stations_m[1:] + stations_m[:-1]) / 2.0, [stations_m[-1]]])
-
-
-def station_lengths(stations_m: np.ndarray) -> np.ndarray:
-    """Length of conductor (horizontal) each station stands for: half the gap to each neighbour [m]."""
-    return np.diff(station_edges(stations_m))
-
-
-def runs(mask: np.ndarray) -> list[tuple[int, int]]:
-    """Index ranges [first, last] of each contiguous True stretch."""
-    padded = np.concatenate([[False], mask, [False]]).astype(np.int8)
-    change = np.flatnonzero(np.diff(padded))
-    return [(int(a), int(b) - 1) for a, b in zip(change[::2], change[1::2])]
 
 
 def summarise(profile, clearance: np.ndarray, required_m, unknown=None, surface_violation=False,

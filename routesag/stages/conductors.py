@@ -11,35 +11,17 @@ from routesag.errors import DataError
 from routesag.physics.bilinear import exact_minimum_stations
 from routesag.physics.conductor3d import conductor_points, conductor_stations, span_geometry
 from routesag.pipeline import Stage
+from routesag.profiles import ConductorProfile, Profiles
 
 #: Metres per degree of latitude (mean), to size a lat/lon raster's cells.
 METRES_PER_DEGREE = 111_320.0
-
-
-@dataclass
-class ConductorProfile:
-    """One wire of one span in one load case: stations along the span and the wire's 3D points."""
-
-    span_id: str
-    section_id: str
-    load_case: str
-    stations_m: np.ndarray      # horizontal distance from the from-support [m]
-    xyz: np.ndarray             # (n, 3) wire points in the working CRS [m]
-    horizontal_tension_n: float
-    max_tension_n: float
-    sag_m: float                # vertical distance chord to wire at mid-span [m]
-    low_point_m: float          # the wire's lowest point: horizontal distance from the from-support [m]
-    catenary_m: float
-    blowout_deg: float
-    wire: str = ""
-    swung_sag_m: float = float("nan")   # mid-span sag in the swung plane, along the load [m]
-    blowout_m: float = float("nan")     # largest horizontal distance of the wire from its clamps' vertical plane [m]
 
 
 class BuildConductors(Stage):
     name = "build_conductors"
     requires = ("project", "wire_spans", "tensions", "structure_loads", "terrain", "work_crs")
     provides = ("conductors",)
+    per_section = True
     description = ("exact inclined catenary per span, wire and load case between the (swung) clamps, "
                    "swung by the blowout angle, as 3D stations")
 
@@ -50,7 +32,7 @@ class BuildConductors(Stage):
         ctx.notes["station_m"] = station_m
         rows = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
         terrain = TerrainView(data["terrain"], data["work_crs"])
-        return {"conductors": [span_profile(row, station_m, terrain) for _, row in rows.iterrows()]}
+        return {"conductors": Profiles(span_profile(row, station_m, terrain) for row in rows.to_dict("records"))}
 
 
 @dataclass(frozen=True)

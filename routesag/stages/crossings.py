@@ -13,11 +13,12 @@ import shapely
 
 from routesag.io.crossings import check_crossings, read_crossings_file
 from routesag.pipeline import Stage
+from routesag.profiles import StationField, split_by_profile, stacked_xy
 
 
 class ReadCrossings(Stage):
     name = "read_crossings"
-    requires = ("project", "work_crs")
+    requires = ("project", "work_crs", "structures")
     provides = ("crossings",)
     description = "read crossing areas (roads, railways, water ...) with their required clearance; lines buffered"
 
@@ -29,6 +30,9 @@ class ReadCrossings(Stage):
         crossings = check_crossings(raw, project.crossings_path, project.clearance, crs, project.structures_crs,
                                     layer=project.crossings_layer,
                                     fields=project.settings.get("inputs", {}).get("fields"), warn=ctx.warn)
+        message = far_from_line(crossings, data["structures"][["x", "y"]].to_numpy(dtype=float))
+        if message:
+            ctx.warn(f"crossings {project.crossings_path}: {message}")
         ctx.notes["crossings"] = crossings["category"].value_counts().sort_index().to_dict()
         return {"crossings": crossings}
 
@@ -37,13 +41,11 @@ class ClassifyStations(Stage):
     name = "classify_stations"
     requires = ("project", "conductors", "crossings")
     provides = ("station_rules",)
+    per_section = True
     description = "category and required clearance of every station: ground, or the crossing it lies in"
 
     def run(self, data, ctx):
         ground_m = data["project"].clearance.required_m["ground"]
-        message = far_from_line(data["crossings"], data["conductors"])
-        if message:
-            ctx.warn(f"crossings {data['project'].crossings_path}: {message}")
         return {"station_rules": station_rules(data["conductors"], data["crossings"], ground_m)}
 
 
@@ -51,11 +53,15 @@ class ClassifyStations(Stage):
 FAR_FROM_LINE_M = 1000.0
 
 
-def far_from_line(crossings, profiles) -> str | None:
-    """A warning when the layer has features but none within :data:`FAR_FROM_LINE_M` of any wire."""
-    if len(crossings) == 0 or not profiles:
+def far_from_line(crossings, xy) -> str | None:
+    """A warning when the layer has features but none within :data:`FAR_FROM_LINE_M` of the structures ``xy``.
+
+    The structures (not the wires) stand for the line so the check is made
+    once for the whole line, before it is cut into sections; a wire strays
+    from its structures' bounding box by far less than that distance.
+    """
+    if len(crossings) == 0 or not len(xy):
         return None
-    xy = np.concatenate([p.xyz[:, :2] for p in profiles])
     area = shapely.box(*(xy.min(axis=0) - FAR_FROM_LINE_M), *(xy.max(axis=0) + FAR_FROM_LINE_M))
     if crossings.sindex.query(area, predicate="intersects").size:
         return None
@@ -69,13 +75,9 @@ def empty_crossings(crs) -> gpd.GeoDataFrame:
                              "required_m": np.empty(0)}, geometry=gpd.GeoSeries([], crs=crs), crs=crs)
 
 
-def station_rules(profiles, crossings, ground_required_m) -> list[tuple[np.ndarray, np.ndarray]]:
-    """(required clearance [m], category) per station of each profile, all profiles in one query."""
-    counts = [len(p.stations_m) for p in profiles]
-    xy = np.concatenate([p.xyz[:, :2] for p in profiles]) if profiles else np.empty((0, 2))
-    required, category = classify_points(xy, crossings, ground_required_m)
-    bounds = np.cumsum([0] + counts)
-    return [(required[a:b], category[a:b]) for a, b in zip(bounds[:-1], bounds[1:])]
+def station_rules(profiles, crossings, ground_required_m) -> StationField:
+    """(required clearance [m], category) per station of each profile, by key; all profiles in one query."""
+    return split_by_profile(classify_points(stacked_xy(profiles), crossings, ground_required_m), profiles)
 
 
 def classify_points(xy, crossings, ground_required_m) -> tuple[np.ndarray, np.ndarray]:

@@ -18,8 +18,6 @@ Rules, per span:
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 import pyproj
 from scipy.spatial import cKDTree
@@ -27,29 +25,20 @@ from scipy.spatial import cKDTree
 from routesag.errors import DataError
 from routesag.io.terrain import TerrainSampler, _first_line, _horizontal_part
 from routesag.pipeline import Stage
-
-
-@dataclass
-class SurfaceProfile:
-    """Distance from each station of one profile to the surface model."""
-
-    distance_m: np.ndarray   # 3D distance to the nearest surface object cell; inf when none within R [m]
-    x: np.ndarray            # that cell centre, NaN when none [m]
-    y: np.ndarray
-    z: np.ndarray
-    unknown: np.ndarray      # bool: nodata within reach; the surface check is incomplete there
+from routesag.profiles import StationField, SurfaceProfile, by_span
 
 
 class SampleSurface(Stage):
     name = "sample_surface"
     requires = ("project", "conductors", "terrain", "work_crs")
     provides = ("surface",)
+    per_section = True
     description = "3D distance from every station to surface objects (DSM cells above the terrain); one window per span"
 
     def run(self, data, ctx):
         project, profiles = data["project"], data["conductors"]
         if project.surface_path is None:
-            return {"surface": [None] * len(profiles)}
+            return {"surface": StationField.fromkeys(p.key for p in profiles)}
         rules = project.clearance
         try:
             with TerrainSampler(project.surface_path, z_units=project.terrain_z_units) as raster:
@@ -107,17 +96,11 @@ class SurfaceModel:
         """Plan distance within which a nodata cell could hide an object closer than required [m]."""
         return self.required_m + self.half_cell_m
 
-    def sample(self, profiles, checked=lambda case: True) -> list[SurfaceProfile | None]:
-        """One :class:`SurfaceProfile` per profile of a checked load case, None for the others."""
-        result: list[SurfaceProfile | None] = [None] * len(profiles)
-        by_span: dict[str, list[int]] = {}
-        for i, p in enumerate(profiles):
-            if checked(p.load_case):
-                by_span.setdefault(p.span_id, []).append(i)
-        for indices in by_span.values():
-            span_profiles = [profiles[i] for i in indices]
-            for i, found in zip(indices, self.sample_span(span_profiles)):
-                result[i] = found
+    def sample(self, profiles, checked=lambda case: True) -> StationField:
+        """A :class:`SurfaceProfile` per profile of a checked load case, None for the others, by key."""
+        result = StationField.fromkeys(p.key for p in profiles)
+        for span_profiles in by_span(p for p in profiles if checked(p.load_case)):
+            result.update(zip((p.key for p in span_profiles), self.sample_span(span_profiles), strict=True))
         return result
 
     def sample_span(self, profiles) -> list[SurfaceProfile]:

@@ -11,7 +11,7 @@ import pandas as pd
 import shapely
 
 from routesag.pipeline import Stage
-from routesag.stages.clearance import profile_identity, runs, station_edges
+from routesag.profiles import profile_identity, runs, station_edges
 
 UNKNOWN_COLUMNS = ["span_id", "load_case", "start_m", "end_m", "length_m", "reason"]
 
@@ -20,13 +20,14 @@ class FindUnknowns(Stage):
     name = "find_unknowns"
     requires = ("project", "conductors", "ground", "surface")
     provides = ("unknown_stretches",)
+    per_section = True
     description = "stretches of wire over terrain or surface nodata (unknown clearance, never clear)"
 
     def run(self, data, ctx):
         rules = data["project"].clearance
-        rows = [row for profile, ground, surface in zip(data["conductors"], data["ground"], data["surface"])
-                if rules.checks(profile.load_case)
-                for row in unknown_stretches(profile, ground, surface)]
+        ground, surface = data["ground"], data["surface"]
+        rows = [row for profile in data["conductors"] if rules.checks(profile.load_case)
+                for row in unknown_stretches(profile, ground.of(profile), surface.of(profile))]
         frame = pd.DataFrame(rows) if rows else pd.DataFrame(columns=UNKNOWN_COLUMNS + ["geometry"])
         return {"unknown_stretches": frame}
 

@@ -136,13 +136,11 @@ def test_feature_without_area_is_refused():
 
 def test_a_layer_far_from_the_line_is_flagged():
     """A layer in the wrong (but valid) CRS lands far away: warn instead of silently applying no rule."""
-    from types import SimpleNamespace
-
     from routesag.stages.crossings import far_from_line
 
-    wire = SimpleNamespace(xyz=np.array([[0.0, 0.0, 20.0], [300.0, 0.0, 20.0]]))
+    structures = np.array([[0.0, 0.0], [300.0, 0.0]])
     near = check_crossings(layer([box(100, -5, 110, 5)], category=["road"]), "x.gpkg", RULES, WORK)
     far = check_crossings(layer([box(100, 5e5, 110, 5e5 + 10)], category=["road"]), "x.gpkg", RULES, WORK)
-    assert far_from_line(near, [wire]) is None
-    assert "none of its 1 features lies within 1000 m of the line" in far_from_line(far, [wire])
-    assert far_from_line(empty_crossings(WORK), [wire]) is None
+    assert far_from_line(near, structures) is None
+    assert "none of its 1 features lies within 1000 m of the line" in far_from_line(far, structures)
+    assert far_from_line(empty_crossings(WORK), structures) is None

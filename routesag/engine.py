@@ -1,0 +1,137 @@
+"""Engines that run tension sections: in this process, in worker processes, or on a dask cluster.
+
+Every engine has ``map(tasks)``, which yields ``(outputs, context)`` per
+:class:`~routesag.pipeline.SectionTask` in task order, so a run gives the same
+rows in the same order whatever the engine. Open rasters never travel: before a
+task leaves the process each :class:`~routesag.io.terrain.TerrainSampler` in
+its inputs is replaced by a :class:`~routesag.io.terrain.RasterRef`, which the
+worker opens itself (once per process, with the sampler's own GDAL settings).
+"""
+from __future__ import annotations
+
+import logging
+import multiprocessing
+import os
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import replace
+
+from routesag.errors import ProjectError
+from routesag.io.terrain import RasterRef, TerrainSampler
+from routesag.pipeline import SectionTask, run_section
+
+log = logging.getLogger("routesag")
+
+#: Sections sent to a worker pool ahead of the one being collected, per worker (bounds memory).
+AHEAD_PER_WORKER = 2
+
+
+def default_workers() -> int:
+    """Worker processes when none is asked for: one per core this process may use."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
+def portable(task: SectionTask) -> SectionTask:
+    """The task with every open raster replaced by a reference the worker opens itself."""
+    inputs = {k: v.reference() if isinstance(v, TerrainSampler) else v for k, v in task.inputs.items()}
+    return replace(task, inputs=inputs)
+
+
+def open_references(data: dict) -> dict:
+    """Inputs with every :class:`RasterRef` opened in this process."""
+    return {k: v.open() if isinstance(v, RasterRef) else v for k, v in data.items()}
+
+
+def run_portable(task: SectionTask):
+    """Worker side of a section task."""
+    return run_section(task, open_rasters=open_references)
+
+
+class InProcess:
+    """Sections one after the other in this process, with the rasters already open."""
+
+    name = "in process"
+
+    def map(self, tasks):
+        for task in tasks:
+            yield run_section(task)
+
+    def close(self):
+        pass
+
+
+class WorkerPool:
+    """Sections in ``workers`` local processes, results collected in task order."""
+
+    def __init__(self, workers: int):
+        self.workers = workers
+        self.name = f"{workers} worker processes"
+        context = multiprocessing.get_context("forkserver")
+        context.set_forkserver_preload(["routesag.engine", "routesag.stages.conductors", "routesag.stages.surface",
+                                        "routesag.stages.crossings", "routesag.stages.clearance"])
+        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+
+    def map(self, tasks):
+        pending, tasks = [], iter(tasks)
+        ahead = self.workers * AHEAD_PER_WORKER
+        for task in tasks:
+            pending.append(self._pool.submit(run_portable, portable(task)))
+            if len(pending) >= ahead:
+                yield pending.pop(0).result()
+        for future in pending:
+            yield future.result()
+
+    def close(self):
+        self._pool.shutdown(cancel_futures=True)
+
+
+class DaskEngine:
+    """Sections on a dask.distributed cluster: ``tcp://host:port``, or ``local:N`` for a LocalCluster of N."""
+
+    def __init__(self, address: str):
+        try:
+            from dask.distributed import Client, LocalCluster
+        except ImportError:
+            raise ProjectError(f"scheduler {address!r} needs dask.distributed: pip install 'routesag[dask]'") from None
+        self._cluster = None
+        if address.startswith("local:"):
+            workers = _local_workers(address)
+            self._cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
+                                         dashboard_address=None)
+            self._client = Client(self._cluster)
+        else:
+            self._client = Client(address)
+        self.name = f"dask scheduler {address}"
+
+    def map(self, tasks):
+        futures = [self._client.submit(run_portable, portable(task), pure=False) for task in tasks]
+        for future in futures:
+            yield future.result()
+
+    def close(self):
+        self._client.close()
+        if self._cluster is not None:
+            self._cluster.close()
+
+
+def _local_workers(address: str) -> int:
+    count = address.split(":", 1)[1]
+    if not count.isdigit() or int(count) < 1:
+        raise ProjectError(f"scheduler {address!r}: give local:N with N >= 1 workers")
+    return int(count)
+
+
+def make_engine(workers: int | None = None, scheduler: str | None = None, sections: int | None = None):
+    """The engine for a run: dask when a scheduler is named, else a worker pool, else in process.
+
+    ``workers`` None or 0 means one per core; a pool is never larger than the
+    number of ``sections``, and one worker runs in process.
+    """
+    if scheduler:
+        return DaskEngine(scheduler)
+    workers = workers or default_workers()
+    if sections is not None:
+        workers = min(workers, max(sections, 1))
+    return InProcess() if workers <= 1 else WorkerPool(workers)
