@@ -43,6 +43,7 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
     _check_stringing(source, settings.get("stringing", {}), problems)
     _check_stringing_strength(source, settings.get("stringing", {}), settings.get("conductor", {}), problems)
     _check_wires(source, settings.get("wires", []), problems)
+    _check_case_temperatures(source, settings.get("load_cases", []), problems)
     _set_conditions(source, settings, problems)
     _check_limits(source, settings, problems)
     _check_clearance(source, raw.get("clearance"), settings, problems)
@@ -157,7 +158,13 @@ def _conductor_from(c: dict) -> Conductor:
         diameter_m=c["diameter_mm"] / 1e3, area_m2=c["area_mm2"] / 1e6, mass_kg_m=c["mass_kg_m"],
         rated_strength_n=c["rated_strength_kn"] * 1e3, modulus_pa=c["modulus_gpa"] * 1e9,
         expansion_per_c=c["expansion_per_c"], name=c.get("name") or "conductor",
-        source=c.get("source", "project file"))
+        source=c.get("source", "project file"), **_resistances_from(c))
+
+
+def _resistances_from(c: dict) -> dict:
+    """AC resistances [ohm/m] from the table's [ohm/km], None where not given."""
+    return {f"resistance_{t}c_ohm_m": None if c.get(f"resistance_{t}c_ohm_km") is None
+            else c[f"resistance_{t}c_ohm_km"] / 1e3 for t in (25, 75)}
 
 
 def _check_subtable(where: str, key, value, spec: Key, problems) -> dict:
@@ -231,6 +238,37 @@ def _check_stringing_strength(source, stringing: dict, conductor: dict, problems
     if tension_kn >= rated_kn:
         problems.append(f"{source}: [stringing] tension {tension_kn:.1f} kN is not below the rated strength "
                         f"{rated_kn:.1f} kN")
+
+
+#: Weather keys of a load case that only a case given by current_a uses.
+WEATHER_ONLY = ("ambient_c", "wind_speed_m_s", "solar_flux_w_m2", "latitude_deg", "day_of_year", "solar_hour")
+SUN_POSITION = ("latitude_deg", "day_of_year", "solar_hour")
+
+
+def _check_case_temperatures(source, cases: list[dict], problems) -> None:
+    """Each case gives temperature_c or current_a (not both); a current needs its weather."""
+    for i, case in enumerate(cases):
+        where = f"{source}: [[load_cases]] #{i + 1}" + (f" ({case['name']!r})" if case.get("name") else "")
+        given = [k for k in ("temperature_c", "current_a") if case.get(k) is not None]
+        if len(given) != 1:
+            problems.append(f"{where}: give exactly one of temperature_c (the conductor temperature) or "
+                            f"current_a (the line current, with its weather)"
+                            + (" — both are given" if given else ""))
+            continue
+        if given == ["temperature_c"]:
+            extra = [k for k in WEATHER_ONLY if case.get(k) is not None]
+            if extra:
+                problems.append(f"{where}: {', '.join(extra)} only serve current_a; remove them or give "
+                                f"current_a instead of temperature_c")
+            continue
+        missing = [k for k in ("ambient_c", "wind_speed_m_s") if case.get(k) is None]
+        sun = [k for k in SUN_POSITION if case.get(k) is not None]
+        if case.get("solar_flux_w_m2") is None and len(sun) != len(SUN_POSITION):
+            missing.append("solar_flux_w_m2 or all of " + ", ".join(SUN_POSITION))
+        elif case.get("solar_flux_w_m2") is not None and sun:
+            problems.append(f"{where}: give solar_flux_w_m2 or the sun's position ({', '.join(sun)}), not both")
+        if missing:
+            problems.append(f"{where}: current_a needs {', '.join(missing)}")
 
 
 def _set_conditions(source, settings: dict, problems) -> None:

@@ -113,7 +113,7 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
     frame = pd.DataFrame(rows)
     if len(frame):
         ends = spans[["span_id", "from_id", "to_id"]]
-        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "ice_mm", "wind_pa",
+        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "current_a", "ice_mm", "wind_pa",
                               "condition", "rated_strength_n"]]
         frame = (frame.merge(ends, on="span_id", how="left")
                  .merge(case_info, on=["section_id", "wire", "load_case"], how="left")

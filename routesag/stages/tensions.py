@@ -68,6 +68,7 @@ class CaseState:
     name: str
     load: LoadPerLength
     condition: str
+    temperature_c: float            # conductor temperature of the case: given, or from its current [degC]
     state_temperature_c: float      # temperature the initial-state equation is solved at [degC]
     horizontal_tension_n: float
     max_support_tension_n: float    # largest support tension over the section's spans [N]
@@ -146,7 +147,12 @@ def solve_case(where, case, h0_n, ruling_m, spans_m, dz_m, conductor, stringing,
     c = conductor
     load = conductor_load(c.mass_kg_m, c.diameter_m, case.ice_m, case.wind_pa, case.constant_n_m,
                           ice_density_kg_m3)
-    state_t = stringing.state_temperature_c(case.temperature_c, case.condition)
+    try:
+        temperature_c = case.conductor_temperature_c(c)
+    except SolveError as exc:
+        raise SolveError(f"{where}, load case {case.name!r}: conductor temperature from current_a = "
+                         f"{case.current_a:g} A cannot be found ({exc})") from None
+    state_t = stringing.state_temperature_c(temperature_c, case.condition)
     try:
         states = (h0_n, float(bare_weight_n_m(c.mass_kg_m)), stringing.temperature_c, load.resultant_n_m, state_t,
                   c.modulus_pa, c.area_m2, c.expansion_per_c)
@@ -159,14 +165,15 @@ def solve_case(where, case, h0_n, ruling_m, spans_m, dz_m, conductor, stringing,
         raise SolveError(f"{where}, load case {case.name!r}: change of state cannot be solved ({exc})") from None
     plane_span, plane_dz = swung_span(spans_m, dz_m, load.blowout_rad)
     at_a, at_b = support_tensions(plane_span, plane_dz, h, load.resultant_n_m)
-    return CaseState(case.name, load, case.condition, state_t, h, float(np.max(np.maximum(at_a, at_b))))
+    return CaseState(case.name, load, case.condition, temperature_c, state_t, h, float(np.max(np.maximum(at_a, at_b))))
 
 
 def _row(section, case, state: CaseState, h0_n, conductor, design) -> dict:
     load, rts = state.load, conductor.rated_strength_n
     return {
         "section_id": section["section_id"], "load_case": case.name,
-        "temperature_c": case.temperature_c, "ice_mm": case.ice_m * 1e3, "wind_pa": case.wind_pa,
+        "temperature_c": state.temperature_c, "current_a": math.nan if case.current_a is None else case.current_a,
+        "ice_mm": case.ice_m * 1e3, "wind_pa": case.wind_pa,
         "condition": state.condition, "state_temperature_c": state.state_temperature_c,
         "vertical_n_m": load.vertical_n_m, "wind_n_m": load.wind_n_m,
         "resultant_n_m": load.resultant_n_m, "blowout_deg": math.degrees(load.blowout_rad),
