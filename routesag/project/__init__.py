@@ -79,6 +79,7 @@ def _build_project(path: Path, s: dict, output) -> Project:
     inputs = s["inputs"]
     wires = [_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])]
     _check_resistances(path, load_cases, [w.conductor for w in wires] or [conductor])
+    _check_creep_model(path, [(w.conductor, w.stringing) for w in wires] or [(conductor, stringing)])
     return Project(
         path=path.resolve(), structures_path=(base / s["inputs"]["structures"]).resolve(),
         structures_layer=s["inputs"]["structures_layer"], terrain_path=(base / s["inputs"]["terrain"]).resolve(),
@@ -114,6 +115,16 @@ def _check_resistances(path: Path, cases: list[LoadCase], conductors) -> None:
                            f"which needs the AC resistance of the conductor: add resistance_25c_ohm_km and "
                            f"resistance_75c_ohm_km to [conductor] (or the wire's conductor) for "
                            f"{', '.join(lacking)}")
+
+
+def _check_creep_model(path: Path, pairs) -> None:
+    """creep_strain and final_horizontal_tension_kn are the aluminium's: they need the two-material model."""
+    for conductor, stringing in pairs:
+        given = [k for k in ("creep_strain", "final_horizontal_tension_kn") if getattr(stringing, k) is not None]
+        if given and conductor.two_material is None:
+            raise ProjectError(f"project file {path}: [stringing] {', '.join(given)} is the aluminium's creep of "
+                               f"the two-material model: set model = \"two_material\" in the conductor "
+                               f"({conductor.name}) or give creep_allowance_c")
 
 
 def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, stringing: Stringing) -> Wire:

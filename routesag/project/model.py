@@ -6,6 +6,7 @@ from pathlib import Path
 
 from routesag.errors import ProjectError
 from routesag.physics.thermal import ThermalConductor, Weather, conductor_temperature_c
+from routesag.physics.two_material import LinearLaw, TwoMaterialConductor
 from routesag.physics.clearance_rules import (
     DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADDER_PER_KV_M, DEFAULT_REQUIRED_M, phase_to_ground_kv, voltage_adder_m,
 )
@@ -25,6 +26,18 @@ class Conductor:
     source: str = "project file"
     resistance_25c_ohm_m: float | None = None
     resistance_75c_ohm_m: float | None = None
+    two_material: TwoMaterialConductor | None = None   # model = "two_material": aluminium and core members
+
+    def law(self, reference_temperature_c: float, creep_strain: float = 0.0):
+        """Stretch law (:mod:`routesag.physics.two_material`): linear composite, or the two members.
+
+        ``creep_strain`` (the aluminium's, final condition) needs the two-material model.
+        """
+        if self.two_material is not None:
+            return self.two_material.law(creep_strain, reference_temperature_c)
+        if creep_strain:
+            raise ValueError("a creep strain needs the two-material model")
+        return LinearLaw(self.modulus_pa * self.area_m2, self.expansion_per_c, reference_temperature_c)
 
     def thermal(self) -> ThermalConductor | None:
         """The conductor as the heat balance sees it, or None without both resistances."""
@@ -96,6 +109,8 @@ class Stringing:
     tension_percent_rts: float | None = None
     catenary_m: float | None = None
     creep_allowance_c: float | None = None
+    creep_strain: float | None = None
+    final_horizontal_tension_kn: float | None = None
     from_limits: bool = False
     method: str = "section"
 

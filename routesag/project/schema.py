@@ -168,6 +168,11 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "catenary_m": Key(NUMBER, None, positive, "catenary constant H/w of the bare wire [m]"),
         "creep_allowance_c": Key(NUMBER, None, non_negative,
                                  "creep as an equivalent temperature increase of the final state [degC]"),
+        "creep_strain": Key(NUMBER, None, non_negative,
+                            "model = \"two_material\": creep strain of the aluminium in the final state [-]"),
+        "final_horizontal_tension_kn": Key(NUMBER, None, positive,
+                                           "model = \"two_material\": known final horizontal tension at the "
+                                           "stringing temperature, which fixes the aluminium's creep [kN]"),
         "from_limits": Key(bool, False, doc="stringing tension: the largest that meets every [[limits]] entry"),
         "method": Key(str, "section", one_of("section", "ruling_span"),
                       "change of state of the whole section (exact inclined spans) or on the level ruling span"),
@@ -243,5 +248,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
 ARRAY_TABLES = {"load_cases", "wires", "limits"}
 REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases"}
 TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
+#: Ways to give the final (crept) condition; at most one per stringing table.
+CREEP_KEYS = ("creep_allowance_c", "creep_strain", "final_horizontal_tension_kn")
+#: Members of a two-material conductor, required with model = "two_material".
+MEMBER_KEYS = ("aluminium_area_mm2", "aluminium_modulus_gpa", "aluminium_expansion_per_c", "core_area_mm2",
+               "core_modulus_gpa", "core_expansion_per_c")
 
 
