@@ -30,7 +30,8 @@ from routesag.errors import SolveError
 from .catenary import arc_length, mean_tension
 from .two_material import LinearLaw
 
-__all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "parabolic_change_of_state", "physical_tension_range"]
+__all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "parabolic_change_of_state",
+           "physical_tension_range"]
 
 #: Largest half-span angle S/2c tried by the exact solver; cosh overflows near 710.
 _MAX_HALF_SPAN_ANGLE = 300.0

@@ -169,7 +169,7 @@ class StateCarrier:
         return change_of_state_by_law(self.ruling_m, *first)
 
     def bare_mean_tension_n(self, h0_n, temperature_c, law1, law2) -> float:
-        """Mean tension of the bare wire at ``temperature_c`` [N]: the ruling span's, or span-weighted in the section."""
+        """Mean tension of the bare wire at ``temperature_c`` [N]: the ruling span's, or span-weighted (section)."""
         h_n = self.tension_n(h0_n, self.bare_n_m, temperature_c, law1, law2)
         if self.method == "section":
             return float(np.average(mean_tension(self.spans_m, self.dz_m, h_n, self.bare_n_m), weights=self.spans_m))

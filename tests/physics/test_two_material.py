@@ -122,8 +122,8 @@ def test_creep_allowance_conversion_matches_below_the_knee():
     crept = DRAKE.law(eps, 15.0)
     linear = LinearLaw(DRAKE.axial_stiffness_n, DRAKE.composite_expansion_per_c, 15.0)
     for tension_n in (20e3, 40e3):
-        assert crept.stretch_ratio(tension_n, 15.0) == pytest.approx(linear.stretch_ratio(tension_n, 15.0 + allowance_c),
-                                                                     rel=1e-6)
+        expected = linear.stretch_ratio(tension_n, 15.0 + allowance_c)
+        assert crept.stretch_ratio(tension_n, 15.0) == pytest.approx(expected, rel=1e-6)
 
 
 def test_knee_outside_the_search_is_nan():
