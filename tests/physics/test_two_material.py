@@ -65,7 +65,7 @@ def test_below_the_knee_without_creep_equals_the_composite_linear_model(temperat
     assert law.aluminium_stress_pa(level_mean_tension(two, weight_factor * W_N_M, SPAN_M), temperature_c) > 0
     # members with their own expansion differ from the composite law only to second order (alpha dt T/EA and
     # (alpha_a - alpha_s)^2 dt^2 terms, below 1e-6 strain here): a few newtons
-    assert two == pytest.approx(linear, rel=3e-4)
+    assert two == pytest.approx(linear, rel=5e-5)  # measured at most 2.1e-5 (at -20 C)
 
 
 def test_above_the_knee_the_core_alone_carries_the_tension():
