@@ -4,7 +4,9 @@ Each row holds one standard conductor: its designation (``name``), the
 trade's code word where it has one, the construction, and the six properties
 the mechanics need. The ``source`` column says where the dimensions, mass and
 rated strength come from; ``elastic_source`` says the same for the final
-modulus and the expansion coefficient. Values recalled without a printed
+modulus and the expansion coefficient, ``resistance_source`` for the AC
+resistances and ``two_material_source`` for the core and aluminium members
+of a composite conductor. Values recalled without a printed
 source say "from memory".
 
 Pure standard library (csv, difflib): no pandas, no GIS imports.
@@ -28,10 +30,14 @@ from dataclasses import dataclass, fields
 from functools import lru_cache
 from importlib.resources import files
 
-__all__ = ["CatalogEntry", "PROPERTY_FIELDS", "catalog", "find_conductor", "close_matches", "search"]
+__all__ = ["CatalogEntry", "PROPERTY_FIELDS", "OPTIONAL_FIELDS", "catalog", "find_conductor", "close_matches", "search"]
 
 #: The six numeric properties a conductor needs, as named in the project file and the CSV.
 PROPERTY_FIELDS = ("diameter_mm", "area_mm2", "mass_kg_m", "rated_strength_kn", "modulus_gpa", "expansion_per_c")
+#: Numeric properties only some rows hold: AC resistance at 25 and 75 degC (for the heat balance) and the
+#: two members of a composite conductor (for the two-material model). Empty in the CSV: None.
+OPTIONAL_FIELDS = ("resistance_25c_ohm_km", "resistance_75c_ohm_km", "aluminium_area_mm2", "aluminium_modulus_gpa",
+                   "aluminium_expansion_per_c", "core_area_mm2", "core_modulus_gpa", "core_expansion_per_c")
 #: Text fields a search looks in.
 SEARCHED_FIELDS = ("name", "code_word", "type", "standard", "stranding", "source", "note")
 
@@ -54,6 +60,16 @@ class CatalogEntry:
     source: str
     elastic_source: str
     note: str
+    resistance_25c_ohm_km: float | None = None
+    resistance_75c_ohm_km: float | None = None
+    resistance_source: str = ""
+    aluminium_area_mm2: float | None = None
+    aluminium_modulus_gpa: float | None = None
+    aluminium_expansion_per_c: float | None = None
+    core_area_mm2: float | None = None
+    core_modulus_gpa: float | None = None
+    core_expansion_per_c: float | None = None
+    two_material_source: str = ""
 
     @property
     def label(self) -> str:
@@ -61,8 +77,9 @@ class CatalogEntry:
         return f"{self.name} {self.code_word}".strip()
 
     def properties(self) -> dict[str, float]:
-        """The six properties keyed as in the project file's ``[conductor]`` table."""
-        return {key: getattr(self, key) for key in PROPERTY_FIELDS}
+        """The six properties, and the optional ones this row holds, keyed as in the ``[conductor]`` table."""
+        optional = {key: getattr(self, key) for key in OPTIONAL_FIELDS if getattr(self, key) is not None}
+        return {**{key: getattr(self, key) for key in PROPERTY_FIELDS}, **optional}
 
     def text(self) -> str:
         """The fields a search looks in, joined, lower case."""
@@ -81,7 +98,10 @@ def _entry(row: dict) -> CatalogEntry:
     values = {}
     for f in fields(CatalogEntry):
         raw = (row.get(f.name) or "").strip()
-        values[f.name] = float(raw) if f.name in PROPERTY_FIELDS else raw
+        if f.name in OPTIONAL_FIELDS:
+            values[f.name] = float(raw) if raw else None
+        else:
+            values[f.name] = float(raw) if f.name in PROPERTY_FIELDS else raw
     return CatalogEntry(**values)
 
 

@@ -105,3 +105,26 @@ def test_search_needs_every_word():
     assert [e.code_word for e in search("795 54/7")] == ["Condor"]
     assert [e.name for e in search("240/40")] == ["243-AL1/39-ST1A"]
     assert len(search("")) == len(catalog())
+
+
+def test_composite_rows_hold_both_members_with_a_source():
+    for entry in catalog():
+        members = [entry.aluminium_area_mm2, entry.aluminium_modulus_gpa, entry.aluminium_expansion_per_c,
+                   entry.core_area_mm2, entry.core_modulus_gpa, entry.core_expansion_per_c]
+        if entry.type == "ACSR":
+            assert all(v is not None and v > 0 for v in members), entry.label
+            assert "from memory" in entry.two_material_source and "derived" in entry.two_material_source
+            # the members add up to the row's total area and, stiffness-weighted, to its composite modulus
+            assert entry.aluminium_area_mm2 + entry.core_area_mm2 == pytest.approx(entry.area_mm2, abs=0.2)
+            composite = (entry.aluminium_area_mm2 * entry.aluminium_modulus_gpa
+                         + entry.core_area_mm2 * entry.core_modulus_gpa) / entry.area_mm2
+            assert composite == pytest.approx(entry.modulus_gpa, rel=3e-3), entry.label
+        else:
+            assert all(v is None for v in members), entry.label
+
+
+def test_resistances_come_with_a_source():
+    drake = find_conductor("Drake")
+    # IEEE Std 738-2006 worked example (from memory; FIELD.md §10): 7.283e-5 and 8.688e-5 ohm/m
+    assert (drake.resistance_25c_ohm_km, drake.resistance_75c_ohm_km) == (0.07283, 0.08688)
+    assert all(e.resistance_source for e in catalog() if e.resistance_25c_ohm_km is not None)

@@ -48,7 +48,8 @@ References
 
 import numpy as np
 
-__all__ = ["BOUND_M", "grid_line_crossings", "quadratic_vertex_stations", "exact_minimum_stations"]
+__all__ = ["BOUND_M", "grid_line_crossings", "quadratic_vertex_stations", "exact_minimum_stations",
+           "zero_crossing_bounds"]
 
 #: Stated bound [m]: the reported minimum clearance exceeds the true minimum along the path by at most this.
 BOUND_M = 1e-3
@@ -154,3 +155,26 @@ def exact_minimum_stations(stations_m, grid_uv, clearance_m):
     g_ends, g_mid = g[:len(pieces)], g[len(pieces):]
     vertex = quadratic_vertex_stations(pieces[:-1], pieces[1:], g_ends[:-1], g_mid, g_ends[1:])
     return np.unique(np.concatenate([pieces, vertex]))
+
+
+def zero_crossing_bounds(s0_m, s1_m, f0, f1):
+    """Earliest and latest place [m] where a quadratic piece with ``f(s0) = f0``, ``f(s1) = f1`` of opposite
+    signs can cross zero.
+
+    Between two adjacent stations of :func:`exact_minimum_stations` the
+    clearance margin is one quadratic piece (to :data:`BOUND_M`) whose
+    minimum, if it has one inside, is a station; so it is either concave or
+    monotone convex there; it crosses zero once. With ``r = f0 / (f0 - f1)``
+    and ``d = s1 - s0``: a monotone convex piece crosses between
+    ``s0 + d (1 - sqrt(1 - r))`` (vertex at ``s1``) and ``s0 + d sqrt(r)``
+    (vertex at ``s0``), with the chord's ``s0 + d r`` between them; a concave
+    piece lies above its chord, so it crosses after the chord's zero when
+    falling and before it when rising. So a falling piece never crosses
+    before the first bound and a rising one never after the second: a
+    violation stretch that starts at the first and ends at the second is
+    never shorter than the true one.
+    """
+    s0, s1, f0, f1 = (np.asarray(a, dtype=float) for a in (s0_m, s1_m, f0, f1))
+    ratio = np.clip(f0 / (f0 - f1), 0.0, 1.0)
+    d = s1 - s0
+    return s0 + d * (1.0 - np.sqrt(1.0 - ratio)), s0 + d * np.sqrt(ratio)

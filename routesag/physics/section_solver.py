@@ -29,8 +29,10 @@ from scipy.optimize import brentq
 from routesag.errors import SolveError
 
 from .catenary import arc_length, mean_tension
+from .two_material import LinearLaw
 
-__all__ = ["section_unstressed_length", "section_change_of_state"]
+__all__ = ["section_unstressed_length", "section_change_of_state", "section_unstressed_length_by_law",
+           "section_change_of_state_by_law"]
 
 #: Slackest state tried, as in the ruling-span solver: half-span angle S/2c of the longest span.
 _MAX_HALF_SPAN_ANGLE = 300.0
@@ -50,10 +52,8 @@ def section_unstressed_length(spans_m, dz_m, horizontal_tension_n, weight_n_m, a
     axial_stiffness_n : float
         EA [N].
     """
-    spans, dz = np.asarray(spans_m, dtype=float), np.asarray(dz_m, dtype=float)
-    length = arc_length(spans, dz, horizontal_tension_n / weight_n_m)
-    tension = mean_tension(spans, dz, horizontal_tension_n, weight_n_m)
-    return float(np.sum(length / (1.0 + tension / axial_stiffness_n)))
+    no_expansion = LinearLaw(float(axial_stiffness_n), 0.0, 0.0)
+    return section_unstressed_length_by_law(spans_m, dz_m, horizontal_tension_n, weight_n_m, 0.0, no_expansion)
 
 
 def section_change_of_state(spans_m, dz_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
@@ -72,20 +72,33 @@ def section_change_of_state(spans_m, dz_m, tension1_n, weight1_n_m, temperature1
     routesag.errors.SolveError
         If no tension between a half-span angle of 300 and ``EA`` satisfies it.
     """
-    spans = np.asarray(spans_m, dtype=float)
-    axial_n = float(modulus_pa) * float(area_m2)
-    thermal = (1.0 + expansion_per_c * (temperature2_c - temperature1_c))
-    if not thermal > 0:
-        raise SolveError("section change of state impossible: thermal strain shrinks the wire to nothing")
-    target_m = section_unstressed_length(spans, dz_m, tension1_n, weight1_n_m, axial_n) * thermal
+    law = LinearLaw(float(modulus_pa) * float(area_m2), float(expansion_per_c), float(temperature1_c))
+    return section_change_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
+                                          temperature2_c, law, law, loaded_spans)
 
+
+def section_unstressed_length_by_law(spans_m, dz_m, horizontal_tension_n, weight_n_m, temperature_c, law):
+    """Total unstressed length ``sum L_i / x(T_mean,i, t)`` of the section's wire [m] under a stretch law."""
+    spans, dz = np.asarray(spans_m, dtype=float), np.asarray(dz_m, dtype=float)
+    length = arc_length(spans, dz, horizontal_tension_n / weight_n_m)
+    tension = mean_tension(spans, dz, horizontal_tension_n, weight_n_m)
+    return float(np.sum(length / law.stretch_ratio(tension, temperature_c)))
+
+
+def section_change_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
+                                   temperature2_c, law1, law2, loaded_spans=None):
+    """As :func:`section_change_of_state`, each state with its own stretch law (:mod:`.two_material`) [N]."""
+    spans = np.asarray(spans_m, dtype=float)
+    if not (law1.stretch_ratio(0.0, temperature1_c) > 0 and law2.stretch_ratio(0.0, temperature2_c) > 0):
+        raise SolveError("section change of state impossible: thermal strain shrinks the wire to nothing")
+    target_m = section_unstressed_length_by_law(spans, dz_m, tension1_n, weight1_n_m, temperature1_c, law1)
     spans2, dz2 = (spans, dz_m) if loaded_spans is None else loaded_spans
 
     def residual(tension_n):
-        return section_unstressed_length(spans2, dz2, tension_n, weight2_n_m, axial_n) - target_m
+        return section_unstressed_length_by_law(spans2, dz2, tension_n, weight2_n_m, temperature2_c, law2) - target_m
 
     low = weight2_n_m * float(np.max(spans2)) / (2.0 * _MAX_HALF_SPAN_ANGLE)
-    high = axial_n
+    high = float(law2.axial_stiffness_n)
     if not residual(low) > 0 > residual(high):
         raise SolveError(f"section change of state has no solution with a horizontal tension between {low:.4g} N "
                          f"and EA = {high:.4g} N (state 1 H = {tension1_n:g} N, t = {temperature1_c:g} C; "

@@ -28,8 +28,10 @@ from scipy.optimize import brentq, minimize_scalar
 from routesag.errors import SolveError
 
 from .catenary import arc_length, mean_tension
+from .two_material import LinearLaw
 
-__all__ = ["ruling_span", "change_of_state", "parabolic_change_of_state", "physical_tension_range"]
+__all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "parabolic_change_of_state",
+           "physical_tension_range"]
 
 #: Largest half-span angle S/2c tried by the exact solver; cosh overflows near 710.
 _MAX_HALF_SPAN_ANGLE = 300.0
@@ -55,14 +57,6 @@ def ruling_span(spans_m):
     """
     spans = np.asarray(spans_m, dtype=float)
     return float(np.sqrt(np.sum(spans**3) / np.sum(spans)))
-
-
-def _elastic_length_ratio(span_m, horizontal_tension_n, weight_n_m, axial_stiffness_n):
-    """Unstressed length at the reference temperature, ``L / (1 + T_mean / EA)`` [m]."""
-    catenary_m = horizontal_tension_n / weight_n_m
-    stretched = arc_length(span_m, 0.0, catenary_m)
-    tension = mean_tension(span_m, 0.0, horizontal_tension_n, weight_n_m)
-    return stretched / (1.0 + tension / axial_stiffness_n)
 
 
 def _describe(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c):
@@ -132,34 +126,57 @@ def change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m
     .. [2] Irvine, Cable Structures, 1981 (elastic catenary).
     """
     span_m, tension1_n, weight1_n_m, weight2_n_m = map(float, (span_m, tension1_n, weight1_n_m, weight2_n_m))
-    describe = _describe(span_m, tension1_n, weight1_n_m, float(temperature1_c), weight2_n_m, float(temperature2_c))
-    axial_stiffness_n = float(modulus_pa) * float(area_m2)
-    _check_positive(describe, span_m=span_m, tension1_n=tension1_n, weight1_n_m=weight1_n_m,
-                    weight2_n_m=weight2_n_m, axial_stiffness_n=axial_stiffness_n)
     if reference_temperature_c is None:
         reference_temperature_c = temperature1_c
-    alpha = float(expansion_per_c)
-    growth1 = 1.0 + alpha * (float(temperature1_c) - float(reference_temperature_c))
-    growth2 = 1.0 + alpha * (float(temperature2_c) - float(reference_temperature_c))
-    thermal = growth2 / growth1
-    if not (growth1 > 0 and growth2 > 0):
+    law = LinearLaw(float(modulus_pa) * float(area_m2), float(expansion_per_c), float(reference_temperature_c))
+    return change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
+                                  law, law)
+
+
+def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
+                           law1, law2):
+    """Horizontal tension in state 2 of a level span [N], each state with its own stretch law (scalar).
+
+    As :func:`change_of_state`, with the stretch ``x = L / L0`` of each state
+    given by ``law1`` and ``law2`` (:mod:`.two_material`: a linear composite,
+    or aluminium and core with the knee point; the final condition is a law
+    whose aluminium has crept). Solves ``L2 / x2(T_mean2, t2) = L1 / x1(T_mean1, t1)``.
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        As :func:`change_of_state`.
+    """
+    span_m, tension1_n, weight1_n_m, weight2_n_m = map(float, (span_m, tension1_n, weight1_n_m, weight2_n_m))
+    describe = _describe(span_m, tension1_n, weight1_n_m, float(temperature1_c), weight2_n_m, float(temperature2_c))
+    axial_stiffness_n = float(law2.axial_stiffness_n)
+    _check_positive(describe, span_m=span_m, tension1_n=tension1_n, weight1_n_m=weight1_n_m,
+                    weight2_n_m=weight2_n_m, axial_stiffness_n=axial_stiffness_n)
+    if not (law1.stretch_ratio(0.0, temperature1_c) > 0 and law2.stretch_ratio(0.0, temperature2_c) > 0):
         raise SolveError(f"change of state impossible: thermal strain shrinks the wire to nothing ({describe})")
-    target_m = _elastic_length_ratio(span_m, tension1_n, weight1_n_m, axial_stiffness_n) * thermal
+    if mean_tension(span_m, 0.0, tension1_n, weight1_n_m) >= law1.axial_stiffness_n:
+        raise SolveError(f"change of state impossible: the mean tension of state 1 is not below EA = "
+                         f"{law1.axial_stiffness_n:.4g} N, a strain of 100 % or more ({describe})")
+    target_m = _unstressed_length(span_m, tension1_n, weight1_n_m, temperature1_c, law1)
 
     def residual(tension_n):
-        return _elastic_length_ratio(span_m, tension_n, weight2_n_m, axial_stiffness_n) - target_m
+        return _unstressed_length(span_m, tension_n, weight2_n_m, temperature2_c, law2) - target_m
 
-    if mean_tension(span_m, 0.0, tension1_n, weight1_n_m) >= axial_stiffness_n:
-        raise SolveError(f"change of state impossible: the mean tension of state 1 is not below EA = "
-                         f"{axial_stiffness_n:.4g} N, a strain of 100 % or more ({describe})")
     low_limit, high_limit = physical_tension_range(span_m, weight2_n_m, axial_stiffness_n, describe)
     guess = parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
-                                      temperature2_c, modulus_pa, area_m2, expansion_per_c)
+                                      temperature2_c, axial_stiffness_n, 1.0, law2.expansion_per_c)
     low, high = _bracket(residual, float(np.clip(guess, low_limit, high_limit)), low_limit, high_limit)
     if low is None:
         raise SolveError(f"change of state has no solution with a horizontal tension between "
                          f"{low_limit:.4g} N and {high_limit:.4g} N ({describe})")
     return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
+
+
+def _unstressed_length(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):
+    """Unstressed length ``L / x(T_mean, t)`` of a level span [m]."""
+    stretched = arc_length(span_m, 0.0, horizontal_tension_n / weight_n_m)
+    tension = mean_tension(span_m, 0.0, horizontal_tension_n, weight_n_m)
+    return float(stretched / law.stretch_ratio(tension, temperature_c))
 
 
 def physical_tension_range(span_m, weight_n_m, axial_stiffness_n, describe=""):

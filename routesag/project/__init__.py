@@ -8,9 +8,11 @@ valid key. The result is a :class:`Project` (``model.py``) in SI units.
 from __future__ import annotations
 
 import tomllib
+from dataclasses import fields
 from pathlib import Path
 
 from routesag.errors import ProjectError
+from routesag.physics.thermal import Weather
 from routesag.project.model import (
     ClearanceRules, Conductor, LoadCase, Project, Stringing, TensionLimit, Wire,
 )
@@ -71,10 +73,13 @@ def _build_project(path: Path, s: dict, output) -> Project:
     stringing = Stringing(**s["stringing"])
     load_cases = [LoadCase(name=e["name"], temperature_c=e["temperature_c"], ice_m=e["ice_mm"] / 1e3,
                            wind_pa=e["wind_pa"], constant_n_m=e["constant_n_m"], wind_side=e["wind_side"],
-                           condition=e["condition"])
+                           condition=e["condition"], current_a=e["current_a"], weather=_weather(e))
                   for e in s["load_cases"]]
     out = Path(output) if output is not None else base / s["output"]["path"]
     inputs = s["inputs"]
+    wires = [_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])]
+    _check_resistances(path, load_cases, [w.conductor for w in wires] or [conductor])
+    _check_creep_model(path, [(w.conductor, w.stringing) for w in wires] or [(conductor, stringing)])
     return Project(
         path=path.resolve(), structures_path=(base / s["inputs"]["structures"]).resolve(),
         structures_layer=s["inputs"]["structures_layer"], terrain_path=(base / s["inputs"]["terrain"]).resolve(),
@@ -84,7 +89,7 @@ def _build_project(path: Path, s: dict, output) -> Project:
         station_m=s["clearance"]["station_m"],
         ice_density_kg_m3=s["loads"]["ice_density_kg_m3"], output_path=out.resolve(),
         pipeline_stages=list(s["pipeline"]["stages"]), settings=s,
-        wires=[_build_wire(path, i, e, conductor, stringing) for i, e in enumerate(s["wires"])],
+        wires=wires,
         insulator_weight_n=s["insulators"]["weight_n"], insulator_wind_area_m2=s["insulators"]["wind_area_m2"],
         insulator_max_swing_deg=s["insulators"]["max_swing_deg"],
         limits=[TensionLimit(**e) for e in s["limits"]],
@@ -92,6 +97,34 @@ def _build_project(path: Path, s: dict, output) -> Project:
         crossings_layer=inputs["crossings_layer"],
         surface_path=None if inputs["surface"] is None else (base / inputs["surface"]).resolve(),
         surface_values=inputs["surface_values"], clearance=_clearance_rules(s["clearance"]))
+
+
+def _weather(case: dict) -> Weather | None:
+    """The heat balance's weather of a load case given by current_a (validated)."""
+    if case["current_a"] is None:
+        return None
+    return Weather(**{f.name: case[f.name] for f in fields(Weather)})
+
+
+def _check_resistances(path: Path, cases: list[LoadCase], conductors) -> None:
+    """A case given by its current needs every conductor it is solved for to hold AC resistances."""
+    current = [c.name for c in cases if c.current_a is not None]
+    lacking = sorted({c.name for c in conductors if c.thermal() is None})
+    if current and lacking:
+        raise ProjectError(f"project file {path}: [[load_cases]] {', '.join(map(repr, current))} give current_a, "
+                           f"which needs the AC resistance of the conductor: add resistance_25c_ohm_km and "
+                           f"resistance_75c_ohm_km to [conductor] (or the wire's conductor) for "
+                           f"{', '.join(lacking)}")
+
+
+def _check_creep_model(path: Path, pairs) -> None:
+    """creep_strain and final_horizontal_tension_kn are the aluminium's: they need the two-material model."""
+    for conductor, stringing in pairs:
+        given = [k for k in ("creep_strain", "final_horizontal_tension_kn") if getattr(stringing, k) is not None]
+        if given and conductor.two_material is None:
+            raise ProjectError(f"project file {path}: [stringing] {', '.join(given)} is the aluminium's creep of "
+                               f"the two-material model: set model = \"two_material\" in the conductor "
+                               f"({conductor.name}) or give creep_allowance_c")
 
 
 def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, stringing: Stringing) -> Wire:

@@ -4,6 +4,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from routesag.errors import ProjectError
+from routesag.physics.thermal import ThermalConductor, Weather, conductor_temperature_c
+from routesag.physics.two_material import LinearLaw, TwoMaterialConductor
 from routesag.physics.clearance_rules import (
     DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADDER_PER_KV_M, DEFAULT_REQUIRED_M, phase_to_ground_kv, voltage_adder_m,
 )
@@ -21,6 +24,26 @@ class Conductor:
     expansion_per_c: float
     name: str = "conductor"
     source: str = "project file"
+    resistance_25c_ohm_m: float | None = None
+    resistance_75c_ohm_m: float | None = None
+    two_material: TwoMaterialConductor | None = None   # model = "two_material": aluminium and core members
+
+    def law(self, reference_temperature_c: float, creep_strain: float = 0.0):
+        """Stretch law (:mod:`routesag.physics.two_material`): linear composite, or the two members.
+
+        ``creep_strain`` (the aluminium's, final condition) needs the two-material model.
+        """
+        if self.two_material is not None:
+            return self.two_material.law(creep_strain, reference_temperature_c)
+        if creep_strain:
+            raise ValueError("a creep strain needs the two-material model")
+        return LinearLaw(self.modulus_pa * self.area_m2, self.expansion_per_c, reference_temperature_c)
+
+    def thermal(self) -> ThermalConductor | None:
+        """The conductor as the heat balance sees it, or None without both resistances."""
+        if self.resistance_25c_ohm_m is None or self.resistance_75c_ohm_m is None:
+            return None
+        return ThermalConductor(self.diameter_m, self.resistance_25c_ohm_m, self.resistance_75c_ohm_m)
 
 
 @dataclass(frozen=True)
@@ -28,12 +51,31 @@ class LoadCase:
     """One design load case: conductor temperature, ice and wind."""
 
     name: str
-    temperature_c: float
+    temperature_c: float | None      # None when given by current_a
     ice_m: float = 0.0
     wind_pa: float = 0.0
     constant_n_m: float = 0.0
     wind_side: str = "right"
     condition: str = "initial"
+    current_a: float | None = None
+    weather: Weather | None = None      # with current_a: the heat balance's weather
+
+    def conductor_temperature_c(self, conductor: Conductor) -> float:
+        """The case's conductor temperature [degC]: given, or from ``current_a`` by the IEEE 738 heat balance.
+
+        Raises
+        ------
+        ProjectError
+            With ``current_a`` on a conductor without AC resistances.
+        """
+        if self.current_a is None:
+            return self.temperature_c
+        thermal = conductor.thermal()
+        if thermal is None:
+            raise ProjectError(f"load case {self.name!r}: current_a needs the conductor's AC resistances "
+                               f"(resistance_25c_ohm_km and resistance_75c_ohm_km in [conductor]); "
+                               f"{conductor.name} has none")
+        return conductor_temperature_c(self.current_a, self.weather, thermal)
 
     @property
     def side_sign(self) -> float:
@@ -67,6 +109,8 @@ class Stringing:
     tension_percent_rts: float | None = None
     catenary_m: float | None = None
     creep_allowance_c: float | None = None
+    creep_strain: float | None = None
+    final_horizontal_tension_kn: float | None = None
     from_limits: bool = False
     method: str = "section"
 

@@ -88,6 +88,42 @@ FIELDS_TABLE = {name: Key(str, None, doc=f"the file's name of field {name}")
                 for name in ("structure_id", "seq", "line_id", "kind", "attach_height_m", "ground_z_m",
                              "insulator_m", "category", "required_m", "width_m")}
 
+#: [conductor]: AC resistances for the heat balance (load cases given by current_a) and, for a composite
+#: conductor, its two members for model = "two_material".
+CONDUCTOR_OPTIONAL_KEYS = {
+    "resistance_25c_ohm_km": Key(NUMBER, None, positive, "AC resistance at 25 degC [ohm/km]"),
+    "resistance_75c_ohm_km": Key(NUMBER, None, positive, "AC resistance at 75 degC [ohm/km]"),
+    "model": Key(str, "linear", one_of("linear", "two_material"),
+                 "linear-elastic composite, or aluminium and core as two members (knee point)"),
+    "aluminium_area_mm2": Key(NUMBER, None, positive, "area of the aluminium layers [mm2]"),
+    "aluminium_modulus_gpa": Key(NUMBER, None, positive, "final modulus of the aluminium layers [GPa]"),
+    "aluminium_expansion_per_c": Key(NUMBER, None, positive, "expansion coefficient of the aluminium [1/degC]"),
+    "aluminium_compression_mpa": Key(NUMBER, 0.0, non_negative,
+                                     "largest compressive stress the aluminium layers take [MPa]"),
+    "core_area_mm2": Key(NUMBER, None, positive, "area of the core [mm2]"),
+    "core_modulus_gpa": Key(NUMBER, None, positive, "modulus of the core [GPa]"),
+    "core_expansion_per_c": Key(NUMBER, None, positive, "expansion coefficient of the core [1/degC]"),
+}
+
+#: [[load_cases]]: the weather of a case given by its current (IEEE Std 738 heat balance).
+WEATHER_KEYS = {
+    "current_a": Key(NUMBER, None, non_negative, "line current; the conductor temperature follows from the "
+                                                  "heat balance (instead of temperature_c) [A]"),
+    "ambient_c": Key(NUMBER, None, above_absolute_zero, "air temperature [degC]"),
+    "wind_speed_m_s": Key(NUMBER, None, non_negative, "wind speed for the heat balance [m/s]"),
+    "wind_angle_deg": Key(NUMBER, 90.0, None, "angle between the wind and the line [deg]"),
+    "elevation_m": Key(NUMBER, 0.0, None, "elevation above sea level [m]"),
+    "emissivity": Key(NUMBER, 0.5, up_to(1.0), "conductor emissivity [-]"),
+    "absorptivity": Key(NUMBER, 0.5, up_to(1.0), "conductor solar absorptivity [-]"),
+    "solar_flux_w_m2": Key(NUMBER, None, non_negative, "solar flux on the conductor (instead of the sun's "
+                                                        "position) [W/m2]"),
+    "latitude_deg": Key(NUMBER, None, None, "latitude for the sun's position [deg, north +]"),
+    "day_of_year": Key(NUMBER, None, None, "day of the year for the sun's position (1 = 1 January)"),
+    "solar_hour": Key(NUMBER, None, None, "local solar time for the sun's position [h, 12 = noon]"),
+    "line_azimuth_deg": Key(NUMBER, 90.0, None, "azimuth of the line for the sun's angle [deg from north]"),
+    "atmosphere": Key(str, "clear", one_of("clear", "industrial"), "atmosphere of the solar flux"),
+}
+
 SCHEMA: dict[str, dict[str, Key]] = {
     "inputs": {
         "structures": Key(str, doc="structures layer: any vector source GDAL reads, or CSV with x, y"),
@@ -122,6 +158,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "rated_strength_kn": Key(NUMBER, None, positive, "rated tensile strength [kN]"),
         "modulus_gpa": Key(NUMBER, None, positive, "final modulus of elasticity [GPa]"),
         "expansion_per_c": Key(NUMBER, None, positive, "thermal expansion coefficient [1/degC]"),
+        **CONDUCTOR_OPTIONAL_KEYS,
     },
     "stringing": {
         "temperature_c": Key(NUMBER, check=above_absolute_zero,
@@ -131,13 +168,19 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "catenary_m": Key(NUMBER, None, positive, "catenary constant H/w of the bare wire [m]"),
         "creep_allowance_c": Key(NUMBER, None, non_negative,
                                  "creep as an equivalent temperature increase of the final state [degC]"),
+        "creep_strain": Key(NUMBER, None, non_negative,
+                            "model = \"two_material\": creep strain of the aluminium in the final state [-]"),
+        "final_horizontal_tension_kn": Key(NUMBER, None, positive,
+                                           "model = \"two_material\": known final horizontal tension at the "
+                                           "stringing temperature, which fixes the aluminium's creep [kN]"),
         "from_limits": Key(bool, False, doc="stringing tension: the largest that meets every [[limits]] entry"),
         "method": Key(str, "section", one_of("section", "ruling_span"),
                       "change of state of the whole section (exact inclined spans) or on the level ruling span"),
     },
     "load_cases": {
         "name": Key(str),
-        "temperature_c": Key(NUMBER, check=above_absolute_zero, doc="conductor temperature [degC]"),
+        "temperature_c": Key(NUMBER, None, above_absolute_zero, "conductor temperature [degC] (or current_a)"),
+        **WEATHER_KEYS,
         "ice_mm": Key(NUMBER, 0.0, non_negative, "radial ice thickness [mm]"),
         "wind_pa": Key(NUMBER, 0.0, non_negative, "wind pressure on the iced conductor [Pa]"),
         "constant_n_m": Key(NUMBER, 0.0, non_negative, "load constant added to the resultant (NESC K) [N/m]"),
@@ -205,5 +248,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
 ARRAY_TABLES = {"load_cases", "wires", "limits"}
 REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases"}
 TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
+#: Ways to give the final (crept) condition; at most one per stringing table.
+CREEP_KEYS = ("creep_allowance_c", "creep_strain", "final_horizontal_tension_kn")
+#: Members of a two-material conductor, required with model = "two_material".
+MEMBER_KEYS = ("aluminium_area_mm2", "aluminium_modulus_gpa", "aluminium_expansion_per_c", "core_area_mm2",
+               "core_modulus_gpa", "core_expansion_per_c")
 
 

@@ -9,9 +9,10 @@ from routesag.catalog import PROPERTY_FIELDS, close_matches, find_conductor
 from routesag.errors import ProjectError, cut
 from routesag.physics.clearance_rules import DEFAULT_REQUIRED_M
 from routesag.physics.loads import G
+from routesag.physics.two_material import TwoMaterialConductor
 from routesag.project.model import Conductor
 from routesag.project.schema import (
-    ARRAY_TABLES, NUMBER, REQUIRED, REQUIRED_TABLES, SCHEMA, TENSION_KEYS, Key,
+    ARRAY_TABLES, CREEP_KEYS, MEMBER_KEYS, NUMBER, REQUIRED, REQUIRED_TABLES, SCHEMA, TENSION_KEYS, Key,
 )
 
 
@@ -43,6 +44,7 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
     _check_stringing(source, settings.get("stringing", {}), problems)
     _check_stringing_strength(source, settings.get("stringing", {}), settings.get("conductor", {}), problems)
     _check_wires(source, settings.get("wires", []), problems)
+    _check_case_temperatures(source, settings.get("load_cases", []), problems)
     _set_conditions(source, settings, problems)
     _check_limits(source, settings, problems)
     _check_clearance(source, raw.get("clearance"), settings, problems)
@@ -144,6 +146,11 @@ def _complete_conductor(where: str, given: dict, problems) -> dict:
                 out[key] = value
         out["name"] = entry.label
         out["source"] = f"catalog ({entry.source})" + (f"; given: {', '.join(explicit)}" if explicit else "")
+    if out.get("model") == "two_material":
+        members = [k for k in MEMBER_KEYS if out.get(k) is None]
+        if members:
+            problems.append(f"{where}: model = 'two_material' needs {', '.join(map(repr, members))} "
+                            f"(the catalog holds them for ACSR)")
     missing = [k for k in PROPERTY_FIELDS if out.get(k) is None]
     if missing:
         problems.append(f"{where}: missing {', '.join(map(repr, missing))}: give name = \"...\" "
@@ -157,7 +164,24 @@ def _conductor_from(c: dict) -> Conductor:
         diameter_m=c["diameter_mm"] / 1e3, area_m2=c["area_mm2"] / 1e6, mass_kg_m=c["mass_kg_m"],
         rated_strength_n=c["rated_strength_kn"] * 1e3, modulus_pa=c["modulus_gpa"] * 1e9,
         expansion_per_c=c["expansion_per_c"], name=c.get("name") or "conductor",
-        source=c.get("source", "project file"))
+        source=c.get("source", "project file"), two_material=_two_material_from(c), **_resistances_from(c))
+
+
+def _two_material_from(c: dict) -> TwoMaterialConductor | None:
+    """The two members in SI units with model = "two_material" (their keys checked), else None."""
+    if c.get("model") != "two_material":
+        return None
+    return TwoMaterialConductor(
+        aluminium_area_m2=c["aluminium_area_mm2"] / 1e6, aluminium_modulus_pa=c["aluminium_modulus_gpa"] * 1e9,
+        aluminium_expansion_per_c=c["aluminium_expansion_per_c"], core_area_m2=c["core_area_mm2"] / 1e6,
+        core_modulus_pa=c["core_modulus_gpa"] * 1e9, core_expansion_per_c=c["core_expansion_per_c"],
+        aluminium_compression_pa=c["aluminium_compression_mpa"] * 1e6)
+
+
+def _resistances_from(c: dict) -> dict:
+    """AC resistances [ohm/m] from the table's [ohm/km], None where not given."""
+    return {f"resistance_{t}c_ohm_m": None if c.get(f"resistance_{t}c_ohm_km") is None
+            else c[f"resistance_{t}c_ohm_km"] / 1e3 for t in (25, 75)}
 
 
 def _check_subtable(where: str, key, value, spec: Key, problems) -> dict:
@@ -204,6 +228,13 @@ def _kind_name(kind) -> str:
 
 
 def _check_stringing(source, stringing: dict, problems, label="[stringing]") -> None:
+    creep = [k for k in CREEP_KEYS if stringing.get(k) is not None]
+    if len(creep) > 1:
+        problems.append(f"{source}: {label}: give at most one of {', '.join(CREEP_KEYS)} (found "
+                        f"{', '.join(creep)})")
+    if stringing.get("final_horizontal_tension_kn") is not None and stringing.get("from_limits"):
+        problems.append(f"{source}: {label}: final_horizontal_tension_kn belongs to a known stringing tension; "
+                        f"with from_limits = true give creep_strain or creep_allowance_c")
     given = [k for k in TENSION_KEYS if stringing.get(k) is not None]
     if stringing.get("from_limits"):
         if given:
@@ -233,23 +264,60 @@ def _check_stringing_strength(source, stringing: dict, conductor: dict, problems
                         f"{rated_kn:.1f} kN")
 
 
+#: Weather keys of a load case that only a case given by current_a uses.
+WEATHER_ONLY = ("ambient_c", "wind_speed_m_s", "solar_flux_w_m2", "latitude_deg", "day_of_year", "solar_hour")
+SUN_POSITION = ("latitude_deg", "day_of_year", "solar_hour")
+
+
+def _check_case_temperatures(source, cases: list[dict], problems) -> None:
+    """Each case gives temperature_c or current_a (not both); a current needs its weather."""
+    for i, case in enumerate(cases):
+        where = f"{source}: [[load_cases]] #{i + 1}" + (f" ({case['name']!r})" if case.get("name") else "")
+        given = [k for k in ("temperature_c", "current_a") if case.get(k) is not None]
+        if len(given) != 1:
+            problems.append(f"{where}: give exactly one of temperature_c (the conductor temperature) or "
+                            f"current_a (the line current, with its weather)"
+                            + (" — both are given" if given else ""))
+            continue
+        if given == ["temperature_c"]:
+            extra = [k for k in WEATHER_ONLY if case.get(k) is not None]
+            if extra:
+                problems.append(f"{where}: {', '.join(extra)} only serve current_a; remove them or give "
+                                f"current_a instead of temperature_c")
+            continue
+        missing = [k for k in ("ambient_c", "wind_speed_m_s") if case.get(k) is None]
+        sun = [k for k in SUN_POSITION if case.get(k) is not None]
+        if case.get("solar_flux_w_m2") is None and len(sun) != len(SUN_POSITION):
+            missing.append("solar_flux_w_m2 or all of " + ", ".join(SUN_POSITION))
+        elif case.get("solar_flux_w_m2") is not None and sun:
+            problems.append(f"{where}: give solar_flux_w_m2 or the sun's position ({', '.join(sun)}), not both")
+        if missing:
+            problems.append(f"{where}: current_a needs {', '.join(missing)}")
+
+
 def _set_conditions(source, settings: dict, problems) -> None:
     """Default each load case's condition: final when a creep allowance is given, else initial.
 
     Every stringing table a final case is solved from must give its own allowance.
     """
-    allowance = settings.get("stringing", {}).get("creep_allowance_c")
+    allowance = _creep_given(settings.get("stringing", {}))
     final = []
     for i, case in enumerate(settings.get("load_cases", [])):
         if case.get("condition") is None:
             case["condition"] = "initial" if allowance is None else "final"
         elif case["condition"] == "final" and allowance is None:
             problems.append(f"{source}: [[load_cases]] #{i + 1}: condition = 'final' needs [stringing] "
-                            f"creep_allowance_c (give 0 for a conductor that does not creep)")
+                            f"creep_allowance_c (give 0 for a conductor that does not creep; with model = "
+                            f"'two_material' also creep_strain or final_horizontal_tension_kn)")
         if case["condition"] == "final":
             final.append(case.get("name") or f"#{i + 1}")
     if final:
         _check_wire_creep(source, settings.get("wires", []), final, problems)
+
+
+def _creep_given(stringing: dict):
+    """The creep key a stringing table gives, or None."""
+    return next((k for k in CREEP_KEYS if stringing.get(k) is not None), None)
 
 
 def _check_wire_creep(source, wires: list[dict], final_cases: list[str], problems) -> None:
@@ -260,7 +328,7 @@ def _check_wire_creep(source, wires: list[dict], final_cases: list[str], problem
     """
     for i, entry in enumerate(wires):
         own = entry.get("stringing")
-        if isinstance(own, dict) and own.get("creep_allowance_c") is None:
+        if isinstance(own, dict) and _creep_given(own) is None:
             problems.append(f"{source}: {_wire_label(i, entry)} stringing: missing key 'creep_allowance_c': "
                             f"load case(s) {', '.join(map(repr, final_cases))} are final (after creep); give "
                             f"creep_allowance_c (0 for a wire that does not creep)")

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from routesag.physics.bilinear import zero_crossing_bounds
 from routesag.pipeline import Stage
 from routesag.profiles import profile_identity, runs, station_edges, station_lengths  # noqa: F401 (re-exported)
 
@@ -100,13 +101,41 @@ def violation_stretches(clearance, required, categories) -> list[tuple[int, int,
     return stretches
 
 
-def violation_record(profile, ground, clearance, required, categories, first, last, worst) -> dict:
-    """One violation at the worst station of a stretch."""
+def stretch_ends_m(stations_m, margin, categories, first, last) -> tuple[float, float]:
+    """Where a stretch below the required value starts and ends [m], at the threshold crossings.
+
+    Towards a clear neighbour station of the same category the end moves to the
+    outermost place the margin (clearance - required) can cross zero between
+    the two stations (:func:`routesag.physics.bilinear.zero_crossing_bounds`),
+    so the stretch is never shorter than the truth; otherwise it stays at its
+    station (a span end, an unknown neighbour, a change of category).
+    """
+    start, end = float(stations_m[first]), float(stations_m[last])
+    margin = np.where(np.isfinite(margin), margin, np.nan)  # an unknown neighbour is never a crossing
+    if first > 0 and margin[first - 1] >= 0 and categories[first - 1] == categories[first]:
+        start = float(zero_crossing_bounds(stations_m[first - 1], stations_m[first], margin[first - 1],
+                                           margin[first])[0])
+    if last + 1 < len(stations_m) and margin[last + 1] >= 0 and categories[last + 1] == categories[last]:
+        end = float(zero_crossing_bounds(stations_m[last], stations_m[last + 1], margin[last],
+                                         margin[last + 1])[1])
+    return start, end
+
+
+def violation_record(profile, ground, clearance, required, categories, first, last, worst,
+                     at_crossings=True) -> dict:
+    """One violation at the worst station of a stretch, from one threshold crossing to the next.
+
+    ``at_crossings=False`` keeps the ends at stations (the surface distance is no quadratic piece).
+    """
     x, y, z = profile.xyz[worst]
+    if at_crossings:
+        start_m, end_m = stretch_ends_m(profile.stations_m, clearance - required, categories, first, last)
+    else:
+        start_m, end_m = float(profile.stations_m[first]), float(profile.stations_m[last])
     return {
         **profile_identity(profile), "category": str(categories[worst]),
-        "station_m": float(profile.stations_m[worst]), "start_m": float(profile.stations_m[first]),
-        "end_m": float(profile.stations_m[last]), "x": float(x), "y": float(y),
+        "station_m": float(profile.stations_m[worst]), "start_m": start_m,
+        "end_m": end_m, "x": float(x), "y": float(y),
         "conductor_z_m": float(z), "ground_z_m": float(ground[worst]),
         "clearance_m": float(clearance[worst]), "required_m": float(required[worst]),
         "deficit_m": float(required[worst] - clearance[worst]),
@@ -134,7 +163,8 @@ def find_surface_violations(profile, ground, surface, required_m) -> list[dict]:
     categories = np.full(distance.shape, "surface", dtype=object)
     records = []
     for first, last, worst in violation_stretches(distance, required, categories):
-        record = violation_record(profile, ground, distance, required, categories, first, last, worst)
+        record = violation_record(profile, ground, distance, required, categories, first, last, worst,
+                                  at_crossings=False)
         record.update(surface_x=float(surface.x[worst]), surface_y=float(surface.y[worst]),
                       surface_z=float(surface.z[worst]))
         records.append(record)

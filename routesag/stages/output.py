@@ -91,12 +91,16 @@ def spans_layer(spans, crs) -> gpd.GeoDataFrame:
 
 
 def sections_layer(sections, tensions) -> pd.DataFrame:
-    """Tension sections with the stringing tension used and, in limits mode, the limit that set it."""
+    """Tension sections with the stringing tension used and, in limits mode, the limit that set it.
+
+    Also the stringing method (change of state of the section or on its ruling span, ``ruling_span_m``) and,
+    for a two-material conductor, the knee-point temperature of each condition (bare wire).
+    """
     keys = ["section_id"] + (["wire"] if "wire" in tensions.columns else [])
     design = tensions.groupby(keys, sort=False).first().reset_index()
     design["stringing_percent_rts"] = 100.0 * design["stringing_tension_n"] / design["rated_strength_n"]
     columns = ["stringing_tension_n", "stringing_percent_rts", "design_tension_n", "governing_case",
-               "governing_limit"]
+               "governing_limit", "stringing_method", "knee_point_initial_c", "knee_point_final_c"]
     return sections.merge(design[keys + columns], on="section_id", how="left")
 
 
@@ -113,7 +117,7 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
     frame = pd.DataFrame(rows)
     if len(frame):
         ends = spans[["span_id", "from_id", "to_id"]]
-        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "ice_mm", "wind_pa",
+        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "current_a", "ice_mm", "wind_pa",
                               "condition", "rated_strength_n"]]
         frame = (frame.merge(ends, on="span_id", how="left")
                  .merge(case_info, on=["section_id", "wire", "load_case"], how="left")

@@ -21,7 +21,7 @@ import pandas as pd
 
 from routesag.physics.catenary import midspan_sag, support_tensions
 from routesag.physics.loads import bare_weight_n_m
-from routesag.physics.state_change import change_of_state
+from routesag.physics.state_change import change_of_state_by_law
 from routesag.pipeline import Stage
 
 #: Conductor temperatures of the table [degC].
@@ -66,8 +66,9 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c)
     w_n_m = float(bare_weight_n_m(c.mass_kg_m))
     ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
     temps = np.asarray(temperatures_c, dtype=float)
-    h_n = np.array([change_of_state(ruling_m, stringing_tension_n, w_n_m, stringing.temperature_c, w_n_m, t,
-                                    c.modulus_pa, c.area_m2, c.expansion_per_c) for t in temps])
+    law = c.law(stringing.temperature_c)  # initial condition: linear composite or the two members uncrept
+    h_n = np.array([change_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, stringing.temperature_c, w_n_m, t,
+                                           law, law) for t in temps])
     ruling = {"kind": "ruling", "span_id": None, "from_id": None, "to_id": None}
     span_rows = [{"kind": "span", "span_id": s.span_id, "from_id": s.from_id, "to_id": s.to_id}
                  for s in spans.itertuples()]

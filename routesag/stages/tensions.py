@@ -16,11 +16,12 @@ import numpy as np
 import pandas as pd
 
 from routesag.errors import ProjectError, SolveError
-from routesag.physics.catenary import support_tensions
+from routesag.physics.catenary import mean_tension, support_tensions
 from routesag.physics.conductor3d import swung_span
 from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_load
-from routesag.physics.section_solver import section_change_of_state
-from routesag.physics.state_change import change_of_state
+from routesag.physics.section_solver import section_change_of_state_by_law
+from routesag.physics.state_change import change_of_state_by_law
+from routesag.physics.two_material import creep_strain_for_final_tension, knee_point_temperature_c
 from routesag.pipeline import Stage
 from routesag.stages.limits import design_stringing_tension
 
@@ -46,6 +47,8 @@ class SolveTensions(Stage):
         rows, problems = [], []
         ctx.notes["stringing_method"] = {w.name: w.stringing.method for _, s in data["sections"].iterrows()
                                          for w in project.line_wires(s["line_id"])}
+        ctx.notes["ruling_span_m"] = {str(s["section_id"]): round(float(s["ruling_span_m"]), 3)
+                                      for _, s in data["sections"].iterrows()}
         for _, section in data["sections"].iterrows():
             for wire in project.line_wires(section["line_id"]):
                 spans = by_wire[(section["section_id"], wire.name)]
@@ -68,6 +71,7 @@ class CaseState:
     name: str
     load: LoadPerLength
     condition: str
+    temperature_c: float            # conductor temperature of the case: given, or from its current [degC]
     state_temperature_c: float      # temperature the initial-state equation is solved at [degC]
     horizontal_tension_n: float
     max_support_tension_n: float    # largest support tension over the section's spans [N]
@@ -108,15 +112,18 @@ def section_tensions(section, project, conductor=None, stringing=None, spans=Non
     spans_m, dz_m = _span_geometry(ruling_m, spans)
     where = f"tension section {section['section_id']}"
     cases = project.load_cases
+    carry = StateCarrier(stringing.method, ruling_m, spans_m, dz_m, float(bare_weight_n_m(conductor.mass_kg_m)),
+                         stringing.temperature_c)
 
     def solve(h0_n, names=None):
         states, problems = {}, []
+        laws = condition_laws(where, carry, h0_n, conductor, stringing)
         for case in cases:
             if names is not None and case.name not in names:
                 continue
             try:
-                states[case.name] = solve_case(where, case, h0_n, ruling_m, spans_m, dz_m, conductor, stringing,
-                                               project.ice_density_kg_m3)
+                states[case.name] = solve_case(where, case, h0_n, carry, conductor, stringing,
+                                               project.ice_density_kg_m3, laws)
             except SolveError as exc:  # every failing case of the section, together
                 problems.extend(exc.problems)
         if problems:
@@ -131,7 +138,8 @@ def section_tensions(section, project, conductor=None, stringing=None, spans=Non
         h0_n = design.tension_n
     else:
         h0_n = stringing_tension_n(project, conductor, stringing)
-    return [_row(section, case, state, h0_n, conductor, design)
+    knees = knee_points(carry, h0_n, condition_laws(where, carry, h0_n, conductor, stringing))
+    return [dict(_row(section, case, state, h0_n, conductor, design), stringing_method=stringing.method, **knees)
             for case, state in zip(cases, solve(h0_n).values())]
 
 
@@ -141,32 +149,109 @@ def _span_geometry(ruling_m, spans):
     return spans["span_m"].to_numpy(dtype=float), spans["dz_m"].to_numpy(dtype=float)
 
 
-def solve_case(where, case, h0_n, ruling_m, spans_m, dz_m, conductor, stringing, ice_density_kg_m3) -> CaseState:
-    """Carry the stringing state (``h0_n`` at the stringing temperature, bare) to one load case."""
+@dataclass(frozen=True)
+class StateCarrier:
+    """Carries the stringing state (bare, at its temperature) of one section to another state by its method."""
+
+    method: str
+    ruling_m: float
+    spans_m: np.ndarray
+    dz_m: np.ndarray
+    bare_n_m: float
+    stringing_c: float
+
+    def tension_n(self, h0_n, weight_n_m, temperature_c, law1, law2, blowout_rad=0.0) -> float:
+        """Horizontal tension [N] in the state (load ``weight_n_m``, ``temperature_c``, law ``law2``)."""
+        first = (h0_n, self.bare_n_m, self.stringing_c, weight_n_m, temperature_c, law1, law2)
+        if self.method == "section":  # state 2 hangs in the plane swung by the wind, as the 3D wire does
+            return section_change_of_state_by_law(self.spans_m, self.dz_m, *first,
+                                                  loaded_spans=swung_span(self.spans_m, self.dz_m, blowout_rad))
+        return change_of_state_by_law(self.ruling_m, *first)
+
+    def bare_mean_tension_n(self, h0_n, temperature_c, law1, law2) -> float:
+        """Mean tension of the bare wire at ``temperature_c`` [N]: the ruling span's, or span-weighted (section)."""
+        h_n = self.tension_n(h0_n, self.bare_n_m, temperature_c, law1, law2)
+        if self.method == "section":
+            return float(np.average(mean_tension(self.spans_m, self.dz_m, h_n, self.bare_n_m), weights=self.spans_m))
+        return float(mean_tension(self.ruling_m, 0.0, h_n, self.bare_n_m))
+
+
+def condition_laws(where, carry: StateCarrier, h0_n, conductor, stringing) -> dict:
+    """Stretch law of each condition for a two-material conductor (final only with its creep given); else {}.
+
+    The aluminium's final creep strain is given, converted from the creep
+    allowance (:meth:`TwoMaterialConductor.creep_strain_from_allowance`), or
+    found from the known final tension at the stringing temperature.
+    """
+    members = conductor.two_material
+    if members is None:
+        return {}
+    initial = conductor.law(stringing.temperature_c)
+    strain = stringing.creep_strain
+    if stringing.creep_allowance_c is not None:
+        strain = members.creep_strain_from_allowance(stringing.creep_allowance_c)
+    elif stringing.final_horizontal_tension_kn is not None:
+        try:
+            strain = creep_strain_for_final_tension(
+                lambda eps: carry.tension_n(h0_n, carry.bare_n_m, carry.stringing_c, initial,
+                                            conductor.law(stringing.temperature_c, eps)),
+                stringing.final_horizontal_tension_kn * 1e3, h0_n)
+        except SolveError as exc:
+            raise SolveError(f"{where}: [stringing] final_horizontal_tension_kn: {exc}") from None
+    laws = {"initial": initial}
+    if strain is not None:
+        laws["final"] = conductor.law(stringing.temperature_c, strain)
+    return laws
+
+
+def knee_points(carry: StateCarrier, h0_n, laws) -> dict:
+    """Knee-point temperature of each condition [degC], bare wire (NaN for a linear conductor or outside the search)."""
+    knees = {f"knee_point_{condition}_c": math.nan for condition in ("initial", "final")}
+    for condition, law in laws.items():
+        knees[f"knee_point_{condition}_c"] = knee_point_temperature_c(
+            lambda t: carry.bare_mean_tension_n(h0_n, t, laws["initial"], law), law)
+    return knees
+
+
+def solve_case(where, case, h0_n, carry: StateCarrier, conductor, stringing, ice_density_kg_m3,
+               laws=None) -> CaseState:
+    """Carry the stringing state (``h0_n`` at the stringing temperature, bare) to one load case.
+
+    ``laws``: the two-material stretch law of each condition (:func:`condition_laws`); without them the
+    linear composite, the final condition as the initial one at the temperature plus the creep allowance.
+    """
     c = conductor
     load = conductor_load(c.mass_kg_m, c.diameter_m, case.ice_m, case.wind_pa, case.constant_n_m,
                           ice_density_kg_m3)
-    state_t = stringing.state_temperature_c(case.temperature_c, case.condition)
     try:
-        states = (h0_n, float(bare_weight_n_m(c.mass_kg_m)), stringing.temperature_c, load.resultant_n_m, state_t,
-                  c.modulus_pa, c.area_m2, c.expansion_per_c)
-        if stringing.method == "section":  # state 2 hangs in the plane swung by the wind, as the 3D wire does
-            h = section_change_of_state(spans_m, dz_m, *states,
-                                        loaded_spans=swung_span(spans_m, dz_m, load.blowout_rad))
-        else:
-            h = change_of_state(ruling_m, *states)
+        temperature_c = case.conductor_temperature_c(c)
+    except SolveError as exc:
+        raise SolveError(f"{where}, load case {case.name!r}: conductor temperature from current_a = "
+                         f"{case.current_a:g} A cannot be found ({exc})") from None
+    if laws:
+        if case.condition not in laws:
+            raise SolveError(f"{where}, load case {case.name!r}: the final condition needs the aluminium's creep "
+                             f"([stringing] creep_strain, creep_allowance_c or final_horizontal_tension_kn)")
+        state_t, law1, law2 = temperature_c, laws["initial"], laws[case.condition]
+    else:
+        state_t = stringing.state_temperature_c(temperature_c, case.condition)
+        law1 = law2 = c.law(stringing.temperature_c)
+    try:
+        h = carry.tension_n(h0_n, load.resultant_n_m, state_t, law1, law2, load.blowout_rad)
     except SolveError as exc:
         raise SolveError(f"{where}, load case {case.name!r}: change of state cannot be solved ({exc})") from None
-    plane_span, plane_dz = swung_span(spans_m, dz_m, load.blowout_rad)
+    plane_span, plane_dz = swung_span(carry.spans_m, carry.dz_m, load.blowout_rad)
     at_a, at_b = support_tensions(plane_span, plane_dz, h, load.resultant_n_m)
-    return CaseState(case.name, load, case.condition, state_t, h, float(np.max(np.maximum(at_a, at_b))))
+    return CaseState(case.name, load, case.condition, temperature_c, state_t, h,
+                     float(np.max(np.maximum(at_a, at_b))))
 
 
 def _row(section, case, state: CaseState, h0_n, conductor, design) -> dict:
     load, rts = state.load, conductor.rated_strength_n
     return {
         "section_id": section["section_id"], "load_case": case.name,
-        "temperature_c": case.temperature_c, "ice_mm": case.ice_m * 1e3, "wind_pa": case.wind_pa,
+        "temperature_c": state.temperature_c, "current_a": math.nan if case.current_a is None else case.current_a,
+        "ice_mm": case.ice_m * 1e3, "wind_pa": case.wind_pa,
         "condition": state.condition, "state_temperature_c": state.state_temperature_c,
         "vertical_n_m": load.vertical_n_m, "wind_n_m": load.wind_n_m,
         "resultant_n_m": load.resultant_n_m, "blowout_deg": math.degrees(load.blowout_rad),

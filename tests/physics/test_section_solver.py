@@ -39,3 +39,45 @@ def test_single_steep_span_matches_independent_quadrature():
     assert_allclose(got, expected, rtol=1e-7)
     level = change_of_state(span, h1, W_N_M, 15.0, W_N_M, 150.0, **DRAKE)
     assert level > got * 1.01   # the level ruling span overstates the hot tension of a steep span
+
+
+# Mountain section (issue 9): spans 250/100/450/200 m. Heights chosen here so that the steepest span, 450 m,
+# rises 198 m (h/S = 0.44); the others 60 m up (0.24), 30 m down (0.30) and 50 m down (0.25).
+MOUNTAIN_SPANS = np.array([250.0, 100.0, 450.0, 200.0])
+MOUNTAIN_DZ = np.array([60.0, -30.0, 198.0, -50.0])
+
+
+def _inclined_span_written_out(span, rise, h, w):
+    """Arc length and arc-length mean tension of one span, from the catenary's own definition, by fsolve and quad."""
+    from scipy.optimize import fsolve
+
+    c = h / w
+    # the low point x0 where the curve z = c cosh((x - x0)/c) meets both supports (0, 0) and (span, rise)
+    def misfit(x):
+        return [c * (np.cosh((span - x[0]) / c) - np.cosh(-x[0] / c)) - rise]
+
+    x0 = float(fsolve(misfit, [span / 2 - c * rise / span], xtol=1e-10)[0])
+    assert abs(misfit([x0])[0]) < 1e-7  # metres: the curve meets the upper support
+    ds = lambda x: np.cosh((x - x0) / c)   # ds/dx of the curve; the tension there is h ds/dx
+    length = quad(ds, 0, span, epsabs=1e-12, limit=200)[0]
+    mean = quad(lambda x: h * ds(x) ** 2, 0, span, epsabs=1e-9, limit=200)[0] / length
+    return length, mean
+
+
+def test_mountain_section_matches_an_independent_unstressed_length_solution():
+    from scipy.optimize import fsolve
+
+    assert max(abs(MOUNTAIN_DZ) / MOUNTAIN_SPANS) == pytest.approx(0.44)
+    ea, alpha, h1 = DRAKE["modulus_pa"] * DRAKE["area_m2"], DRAKE["expansion_per_c"], 30e3
+
+    def unstressed(h):
+        parts = [_inclined_span_written_out(s, dz, h, W_N_M) for s, dz in zip(MOUNTAIN_SPANS, MOUNTAIN_DZ)]
+        return sum(length / (1 + mean / ea) for length, mean in parts)
+
+    target = unstressed(h1) * (1 + alpha * (90.0 - 15.0))
+    expected = float(fsolve(lambda h: [unstressed(h[0]) - target], [20e3], xtol=1e-13)[0])
+    got = section_change_of_state(MOUNTAIN_SPANS, MOUNTAIN_DZ, h1, W_N_M, 15.0, W_N_M, 90.0, **DRAKE)
+    assert_allclose(got, expected, rtol=1e-7)
+    # the level ruling span overstates this section's hot tension (issue 9 measured +2.6 % on its heights)
+    ruling = change_of_state(ruling_span(MOUNTAIN_SPANS), h1, W_N_M, 15.0, W_N_M, 90.0, **DRAKE)
+    assert ruling > got * 1.01

@@ -29,7 +29,14 @@ def test_one_violation_per_stretch_at_worst_station():
     ground = np.zeros(10)
     z = np.array([10, 9, 6, 5, 7, 10, 10, 6.5, 10, 10.0])
     found = find_violations(profile(z), ground, z - ground, 7.5)
-    assert [(v["start_m"], v["end_m"], v["station_m"]) for v in found] == [(2, 4, 3), (7, 7, 7)]
+    assert [v["station_m"] for v in found] == [3, 7]
+    # ends at the outermost threshold crossing a quadratic piece allows (zero_crossing_bounds), written out:
+    # margins 1.5 -> -1.5 (r = 1/2), -0.5 -> 2.5 (r = 1/6), 2.5 -> -1 (r = 5/7), -1 -> 2.5 (r = 2/7)
+    expected = [(1 + 1 - np.sqrt(1 - 1 / 2), 4 + np.sqrt(1 / 6)), (6 + 1 - np.sqrt(1 - 5 / 7), 7 + np.sqrt(2 / 7))]
+    np.testing.assert_allclose([(v["start_m"], v["end_m"]) for v in found], expected, atol=1e-12)
+    # never inside the stations' stretch, never past the clear neighbours
+    assert all(a - 1 <= v["start_m"] <= a and b <= v["end_m"] <= b + 1
+               for v, (a, b) in zip(found, [(2, 4), (7, 7)]))
     assert found[0]["deficit_m"] == pytest.approx(2.5)
 
 

@@ -19,7 +19,9 @@ def test_stretch_splits_where_the_category_changes():
     category = np.array(["ground"] * 3 + ["road"] * 2 + ["ground"] * 2, dtype=object)
     found = find_violations(profile(clearance), np.zeros(7), clearance, required, category)
     assert [(v["category"], v["start_m"], v["end_m"], v["required_m"]) for v in found] == [
-        ("ground", 1, 2, 7.0), ("road", 3, 4, 9.0), ("ground", 5, 5, 7.0)]
+        ("ground", 0.5, 2, 7.0), ("road", 3, 4, 9.0), ("ground", 5, 5.5, 7.0)]
+    # towards a clear station the end is at the crossing (margins 3 -> -1: 0.5; -1 -> 3: 5.5, zero_crossing_bounds);
+    # at a category change it stays at the station
 
 
 def test_worst_station_is_the_largest_deficit_not_the_lowest_wire():
