@@ -22,6 +22,7 @@ from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_loa
 from routesag.physics.section_solver import section_change_of_state
 from routesag.physics.state_change import change_of_state
 from routesag.pipeline import Stage
+from routesag.stages.as_found import as_found_columns, reference_stringing
 from routesag.stages.limits import design_stringing_tension
 
 #: Slackest stringing tried by the design search: catenary constant = ruling span (sag about 13 % of span).
@@ -30,7 +31,7 @@ DESIGN_LOWEST_CATENARY_PER_SPAN = 1.0
 
 class SolveTensions(Stage):
     name = "solve_tensions"
-    requires = ("project", "sections", "wire_spans")
+    requires = ("project", "sections", "wire_spans", "as_found_states")
     provides = ("tensions",)
     description = ("change of state from the stringing state to every load case (initial or final), per "
                    "tension section and wire; stringing tension from the tension limits on request")
@@ -51,9 +52,15 @@ class SolveTensions(Stage):
                 spans = by_wire[(section["section_id"], wire.name)]
                 own = section.copy()
                 own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]  # the wire's own spans
+                # the state the load cases start from: the design stringing or the section's as-found state
+                stringing, source, state = reference_stringing(wire.stringing, data["as_found_states"],
+                                                               section["section_id"], wire.name)
+                if source != wire.stringing.source:
+                    ctx.warn(f"tension section {section['section_id']}, wire {wire.name}: no good wire fit; "
+                             "load cases start from the design stringing")
                 try:
-                    rows += [dict(row, wire=wire.name)
-                             for row in section_tensions(own, project, wire.conductor, wire.stringing, spans)]
+                    rows += [dict(row, wire=wire.name, **as_found_columns(source, state))
+                             for row in section_tensions(own, project, wire.conductor, stringing, spans)]
                 except SolveError as exc:  # report every section, wire and case that fails, together
                     problems.extend(exc.problems)
         if problems:
