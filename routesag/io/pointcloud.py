@@ -44,6 +44,8 @@ def read_points(path, work_crs=None, corridor=None, crs=None, layer=None, chunk_
     """Any point source by its suffix: LAS/LAZ (:func:`read_point_cloud`), a CSV with x, y, z
     (:func:`read_point_csv`) or a vector point layer with Z (:func:`read_point_layer`)."""
     suffix = Path(path).suffix.lower()
+    if not Path(path).is_file():
+        raise DataError(f"point cloud {path}: not found")
     if suffix in LAS_SUFFIXES:
         return read_point_cloud(path, work_crs, corridor, crs, chunk_points)
     if suffix == ".csv":

@@ -205,7 +205,7 @@ def record_fit_notes(ctx, fits, wire_spans, x, y, search, gap_m) -> None:
     ctx.notes["wire_points_ambiguous"] = int((chord == -2).sum())
     ctx.notes["wire_points_total"] = int(x.size)
     poor = fits[fits["quality"] != "good"]
-    if len(poor):
+    if len(poor) and x.size:  # a cloud without wire points is for vegetation only: nothing to warn of
         listed = "; ".join(f"{r.span_id} {r.wire}: {r.quality} ({r.reason})" for r in poor.head(5).itertuples())
         more = f"; and {len(poor) - 5} more (wire_fits layer)" if len(poor) > 5 else ""
         ctx.warn(f"{len(poor)} of {len(fits)} wire fits are not good and do not count for the as-found "
