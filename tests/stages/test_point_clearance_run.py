@@ -87,3 +87,24 @@ def test_the_swung_wire_is_measured_where_the_wind_blows_it(tree_run):
     assert v.loc["still", "clearance_m"] + 1.0 < expected < 3.0  # moved away, still inside the clearance
     assert v.loc["wind", "clearance_m"] == pytest.approx(expected, abs=0.02)
     assert wind["min_surface_m"] == pytest.approx(expected, abs=0.02)
+
+
+def test_a_reach_past_the_kept_corridor_is_unknown_not_clear(tmp_path):
+    """corridor_m 3.5 m with a 3 m clearance: the wind case swings the wire more than 0.5 m off its chord, where
+    points that matter could lie beyond the corridor and were never kept."""
+    write_plane_raster(tmp_path / "terrain.tif", a=GROUND_Z)
+    write_structures(tmp_path / "structures.gpkg", [(X0, LINE_Y), (X0 + SPAN_M, LINE_Y)], kinds=["strain", "strain"])
+    write_las(tmp_path / "survey.laz", np.array([X0 + 50.0]), np.array([LINE_Y + 3.0]), np.array([GROUND_Z]),
+              np.array([5]))
+    project = write_project(tmp_path, tension_kn=TENSION_KN, attach_height_m=ATTACH_M, ground_m=5.0,
+                            cases=[("still", 15.0, 0.0, 0.0), ("wind", 15.0, 0.0, 300.0)],
+                            extra="\n[clearance.required_m]\nsurface = 3.0\n[point_cloud]\ncorridor_m = 3.5\n")
+    project.write_text(project.read_text().replace('terrain = "terrain.tif"',
+                                                   'terrain = "terrain.tif"\npoint_cloud = "survey.laz"'))
+    result = routesag.run(project)
+    status = result["conductors"].set_index("load_case")["status"]
+    assert status["still"] == "clear" and status["wind"] == "unknown"
+    stretches = result["unknown_stretches"]
+    assert set(stretches["load_case"]) == {"wind"} and set(stretches["reason"]) == {"points"}
+    middle = stretches.iloc[0]
+    assert middle["start_m"] < SPAN_M / 2 < middle["end_m"]

@@ -13,6 +13,7 @@ from routesag.stages.tensions import section_tensions
 from tests.cloud_survey import (
     DRAKE_W_N_M, RETENSIONED, SURVEY_C, TRUE_S1_N, cloud_project, true_tensions, wire_points, write_las,
 )
+from tests.conftest import X0
 
 
 @pytest.fixture
@@ -79,3 +80,41 @@ def test_wire_points_layer_holds_the_assigned_points_with_residuals(as_found_run
     assert points.geometry.has_z.all()
     used = points[~points["outlier"]]
     assert used["residual_m"].abs().max() < 0.3 and set(points["span_id"]) == set(result["spans"]["span_id"])
+
+
+def test_a_section_without_a_good_fit_falls_back_to_the_design_stringing(tmp_path):
+    project = cloud_project(tmp_path, source="as_found")
+    x, y, z, cls = wire_points(project)
+    keep = x < X0 + 550.0 - 6.0  # no points in the span of section S2: its fit fails
+    write_las(tmp_path / "survey.laz", x[keep], y[keep], z[keep], cls[keep])
+    result = routesag.run(project)
+    source = result["sections"].set_index("section_id")["tension_source"]
+    assert source[RETENSIONED] == "as_found" and source["A:S2"] == "design"
+    hot = result["conductors"].query("load_case == 'hot'").set_index("section_id")
+    assert hot.loc["A:S2", "tension_source"] == "design"
+    fits = result["wire_fits"].set_index("section_id")
+    assert fits.loc["A:S2", "quality"] == "failed" and "too few points" in fits.loc["A:S2", "reason"]
+    warnings = " ".join(result["run_info"].query("key.str.startswith('warning')", engine="python")["value"])
+    assert "tension section A:S2, wire A: no good wire fit; load cases start from the design stringing" in warnings
+    # the tension there is the design stringing's own change of state
+    data = compute(project, ["wire_spans", "sections"])
+    section = data["sections"].set_index("section_id", drop=False).loc["A:S2"]
+    spans = data["wire_spans"].query("section_id == 'A:S2'")
+    expected = section_tensions(section, load_project(project), spans=spans)[0]["horizontal_tension_n"]
+    np.testing.assert_allclose(hot.loc["A:S2", "horizontal_tension_n"], expected, rtol=1e-9)
+
+
+def test_fixed_attachments_and_run_info_counts(tmp_path):
+    project = cloud_project(tmp_path, extra="\n[point_cloud]\nfit_attachments = 'fixed'\n")
+    x, y, z, cls = wire_points(project)
+    ground = np.column_stack([x[:100], y[:100] + 5.0, np.full(100, 100.0)])  # class 2 points: kept, not fitted
+    write_las(tmp_path / "survey.laz", np.r_[x, ground[:, 0]], np.r_[y, ground[:, 1]], np.r_[z, ground[:, 2]],
+              np.r_[cls, np.full(100, 2)])
+    result = routesag.run(project)
+    fits = result["wire_fits"]
+    np.testing.assert_allclose(fits["horizontal_tension_n"], fits["section_id"].map(true_tensions(project)),
+                               rtol=0.01)
+    notes = result["run_info"].set_index("key")["value"]
+    assert notes["note.point_cloud_points_read"] == str(x.size + 100)
+    assert notes["note.point_cloud_points_per_class"] == f'{{"2": 100, "14": {x.size}}}'
+    assert int(notes["note.wire_points_unmatched"]) >= 60  # the jumper points at the structures
