@@ -10,6 +10,7 @@ horizontal tension at the survey temperature (see :mod:`routesag.stages.wire_fit
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import geopandas as gpd
@@ -22,6 +23,7 @@ from routesag.io.terrain import Z_UNIT_FACTORS
 from routesag.physics.loads import bare_weight_n_m, conductor_load
 from routesag.physics.wire_fit import FitSettings
 from routesag.pipeline import Stage
+from routesag.project.model import LoadCase
 from routesag.stages.wire_fits import assign_section, fit_section, section_estimates
 
 POINT_COLUMNS = ["x", "y", "z", "classification"]
@@ -123,11 +125,13 @@ class FitWires(Stage):
         fit_settings = FitSettings(attachments=settings.fit_attachments)
         wire_spans = data["wire_spans"]
         search = search_distances(wire_spans, data["attachments"], settings.wire_search_m)
-        fits, states, point_rows = [], [], []
+        sections = data["sections"].set_index("section_id", drop=False)
+        fits, states, point_rows, ordered = [], [], [], []
         for section_id, rows in wire_spans.groupby("section_id", sort=False):
             weights = {w.name: float(bare_weight_n_m(w.conductor.mass_kg_m))
                        for w in project.line_wires(rows["line_id"].iloc[0])}
-            rows = rows.reset_index(drop=True)
+            rows = with_prior(project, sections.loc[section_id], rows.reset_index(drop=True))
+            ordered.append(rows)
             row_search = search[section_id]
             frame, curves, _ = fit_section(rows, x, y, z, weights, row_search,
                                                         settings.structure_gap_m, fit_settings)
@@ -138,8 +142,9 @@ class FitWires(Stage):
             states.append(found.assign(survey_temperature_c=[settings.temperature_of(w) for w in found["wire"]]))
             if settings.write_points:
                 point_rows.append(assigned_points(rows, curves, x, y, z, row_search, settings.structure_gap_m))
+        ordered = pd.concat(ordered, ignore_index=True)
         fits_frame = pd.concat(fits, ignore_index=True)
-        record_fit_notes(ctx, fits_frame, wire_spans, x, y, search, settings.structure_gap_m)
+        record_fit_notes(ctx, fits_frame, ordered, x, y, z, search, settings.structure_gap_m)
         layer = gpd.GeoDataFrame(fits_frame.drop(columns="geometry"), geometry=list(fits_frame["geometry"]),
                                  crs=crs)
         wire_points = None
@@ -156,6 +161,25 @@ def empty_states() -> pd.DataFrame:
                          "as_found_tension_n": pd.Series(dtype=float),
                          "as_found_spread_percent": pd.Series(dtype=float),
                          "n_good_fits": pd.Series(dtype="int64"), "survey_temperature_c": pd.Series(dtype=float)})
+
+
+def with_prior(project, section, rows) -> pd.DataFrame:
+    """The section's rows with ``prior_catenary_m``: each wire's design stringing carried to the survey
+    temperature (or left at its own where none is given), bare and initial; it tells stacked wires apart."""
+    from routesag.stages.tensions import section_tensions  # the tensions stage needs this stage's results
+
+    priors = {}
+    for wire in project.line_wires(section["line_id"]):
+        spans = rows[rows["wire"] == wire.name]
+        own = section.copy()
+        own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]
+        temperature_c = project.point_cloud.temperature_of(wire.name)
+        case = LoadCase("prior", wire.stringing.temperature_c if temperature_c is None else temperature_c)
+        design = dataclasses.replace(wire.stringing, source="design")
+        state = section_tensions(own, dataclasses.replace(project, load_cases=[case]), wire.conductor, design,
+                                 spans)[0]
+        priors[wire.name] = state["catenary_m"]
+    return rows.assign(prior_catenary_m=rows["wire"].map(priors))
 
 
 def search_distances(wire_spans, attachments, wire_search_m) -> dict:
@@ -183,7 +207,7 @@ def fitted_line(row, curve):
 
 def assigned_points(rows, curves, x, y, z, search, gap_m) -> pd.DataFrame:
     """The section's assigned wire points with span, wire, residual to the fitted curve and outlier flag."""
-    chord, along = assign_section(rows, x, y, search, gap_m)
+    chord, along = assign_section(rows, x, y, search, gap_m, z)
     frames = []
     for i, curve in enumerate(curves):
         mine = np.flatnonzero(chord == i)
@@ -194,12 +218,11 @@ def assigned_points(rows, curves, x, y, z, search, gap_m) -> pd.DataFrame:
     return pd.concat(frames, ignore_index=True)
 
 
-def record_fit_notes(ctx, fits, wire_spans, x, y, search, gap_m) -> None:
+def record_fit_notes(ctx, fits, ordered, x, y, z, search, gap_m) -> None:
     """Fit counts by quality, and the wire points that match no wire anywhere on the line (a point unmatched
     in one section may belong to the next), for run_info; one warning for the fits that are not good."""
-    all_search = np.concatenate([search[s] for s in wire_spans["section_id"].unique()])
-    ordered = pd.concat([g for _, g in wire_spans.groupby("section_id", sort=False)], ignore_index=True)
-    chord, _ = assign_section(ordered, x, y, all_search, gap_m)
+    all_search = np.concatenate([search[s] for s in ordered["section_id"].unique()])
+    chord, _ = assign_section(ordered, x, y, all_search, gap_m, z)
     ctx.notes["wire_fits_by_quality"] = {q: int(n) for q, n in fits["quality"].value_counts().items()}
     ctx.notes["wire_points_unmatched"] = int((chord == -1).sum())
     ctx.notes["wire_points_ambiguous"] = int((chord == -2).sum())
