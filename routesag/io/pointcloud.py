@@ -78,6 +78,7 @@ def read_point_cloud(path, work_crs=None, corridor=None, crs=None, chunk_points=
     import laspy
 
     path = Path(path)
+    _check_vlr_count(path)
     try:
         reader_cm = laspy.open(str(path))
     except Exception as exc:  # laspy and its decoders raise many types (struct, lazrs, numpy) for bad bytes
@@ -199,6 +200,26 @@ def _cut(x, y, z, cls, transform, corridor):
 
 #: Largest credible LAZ compression ratio; LAZ typically holds a point in 1/5 to 1/10 of its LAS size.
 MAX_LAZ_RATIO = 50
+
+
+#: Size of a variable-length record's header in a LAS file [bytes] (ASPRS LAS 1.4 R15, sec. 2.5).
+VLR_HEADER_BYTES = 54
+
+
+def _check_vlr_count(path):
+    """A damaged header claiming millions of VLRs would make laspy build them all (a minute for one file):
+    the VLRs must fit between the header and the points (header size at byte 94, offset to the points at
+    96, number of VLRs at 100; ASPRS LAS 1.4 R15, Table 3)."""
+    import struct
+
+    with open(path, "rb") as handle:
+        head = handle.read(104)
+    if len(head) < 104 or head[:4] != b"LASF":
+        return  # not a LAS header at all: laspy names the problem
+    header_size, to_points, n_vlrs = struct.unpack_from("<HII", head, 94)
+    if n_vlrs * VLR_HEADER_BYTES > max(to_points - header_size, 0):
+        raise DataError(f"point cloud {path}: the header claims {n_vlrs} variable-length records, more than fit "
+                        f"in the {max(to_points - header_size, 0)} bytes before the points (a damaged file)")
 
 
 def _check_point_count(header, path):
