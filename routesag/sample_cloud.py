@@ -23,7 +23,6 @@ Deterministic: one seeded generator, so the same points come out every time.
 """
 from __future__ import annotations
 
-import dataclasses
 from pathlib import Path
 
 import numpy as np
@@ -108,21 +107,16 @@ def wire_truth(project_path):
     from routesag.api import compute
     from routesag.physics.loads import bare_weight_n_m
     from routesag.project import load_project
-    from routesag.project.model import LoadCase
-    from routesag.stages.tensions import section_tensions
+    from routesag.stages.as_found import bare_state
 
     project = load_project(project_path)
     data = compute(project_path, ["wire_spans", "sections"])
-    survey = dataclasses.replace(project, load_cases=[LoadCase("survey", SURVEY_TEMPERATURE_C)])
     wire_spans = data["wire_spans"].copy()
     truth = {}
     for _, section in data["sections"].iterrows():
         for wire in project.line_wires(section["line_id"]):
             spans = wire_spans[(wire_spans["section_id"] == section["section_id"]) & (wire_spans["wire"] == wire.name)]
-            own = section.copy()
-            own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]
-            design = dataclasses.replace(wire.stringing, source="design")
-            h_n = section_tensions(own, survey, wire.conductor, design, spans)[0]["horizontal_tension_n"]
+            h_n = bare_state(project, section, wire, spans, SURVEY_TEMPERATURE_C)["horizontal_tension_n"]
             if section["section_id"] == RETENSIONED_SECTION and wire.name.startswith("phase"):
                 h_n = AS_BUILT_PHASE_N
             truth[(section["section_id"], wire.name)] = (h_n, float(bare_weight_n_m(wire.conductor.mass_kg_m)))

@@ -71,6 +71,23 @@ def as_found_columns(source: str, state: dict | None) -> dict:
             "as_found_spread_percent": math.nan if state is None else float(state["as_found_spread_percent"])}
 
 
+def wire_section(section: pd.Series, spans: pd.DataFrame) -> pd.Series:
+    """A sections row with the ruling span of one wire's own spans in it."""
+    own = section.copy()
+    own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]
+    return own
+
+
+def bare_state(project, section, wire, spans, temperature_c, stringing=None) -> dict:
+    """A stringing (default: the wire's design stringing) carried to one temperature, bare wire, no wind,
+    initial: the ``section_tensions`` row of that state."""
+    from routesag.stages.tensions import section_tensions  # the tensions stage imports this module
+
+    stringing = dataclasses.replace(wire.stringing, source="design") if stringing is None else stringing
+    alone = dataclasses.replace(project, load_cases=[LoadCase(SURVEY_CASE, float(temperature_c))])
+    return section_tensions(wire_section(section, spans), alone, wire.conductor, stringing, spans)[0]
+
+
 class CompareAsFound(Stage):
     name = "compare_as_found"
     requires = ("project", "sections", "wire_spans", "tensions", "as_found_states")
@@ -94,8 +111,7 @@ class CompareAsFound(Stage):
                 if state is None:
                     continue
                 spans = by_wire[(section["section_id"], wire.name)]
-                own = section.copy()
-                own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]
+                own = wire_section(section, spans)
                 with_survey = dataclasses.replace(project, load_cases=[
                     LoadCase(SURVEY_CASE, float(state["survey_temperature_c"]))] + list(project.load_cases))
                 design_stringing = dataclasses.replace(wire.stringing, source="design")

@@ -10,7 +10,6 @@ horizontal tension at the survey temperature (see :mod:`routesag.stages.wire_fit
 """
 from __future__ import annotations
 
-import dataclasses
 import math
 
 import geopandas as gpd
@@ -23,7 +22,7 @@ from routesag.io.terrain import Z_UNIT_FACTORS
 from routesag.physics.loads import bare_weight_n_m, conductor_load
 from routesag.physics.wire_fit import FitSettings
 from routesag.pipeline import Stage
-from routesag.project.model import LoadCase
+from routesag.stages.as_found import bare_state
 from routesag.stages.wire_fits import assign_section, fit_section, section_estimates
 
 POINT_COLUMNS = ["x", "y", "z", "classification"]
@@ -166,19 +165,12 @@ def empty_states() -> pd.DataFrame:
 def with_prior(project, section, rows) -> pd.DataFrame:
     """The section's rows with ``prior_catenary_m``: each wire's design stringing carried to the survey
     temperature (or left at its own where none is given), bare and initial; it tells stacked wires apart."""
-    from routesag.stages.tensions import section_tensions  # the tensions stage needs this stage's results
-
     priors = {}
     for wire in project.line_wires(section["line_id"]):
-        spans = rows[rows["wire"] == wire.name]
-        own = section.copy()
-        own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]
         temperature_c = project.point_cloud.temperature_of(wire.name)
-        case = LoadCase("prior", wire.stringing.temperature_c if temperature_c is None else temperature_c)
-        design = dataclasses.replace(wire.stringing, source="design")
-        state = section_tensions(own, dataclasses.replace(project, load_cases=[case]), wire.conductor, design,
-                                 spans)[0]
-        priors[wire.name] = state["catenary_m"]
+        temperature_c = wire.stringing.temperature_c if temperature_c is None else temperature_c
+        priors[wire.name] = bare_state(project, section, wire, rows[rows["wire"] == wire.name],
+                                       temperature_c)["catenary_m"]
     return rows.assign(prior_catenary_m=rows["wire"].map(priors))
 
 
