@@ -328,6 +328,10 @@ CASES = [
     Case("survey temperature below absolute zero",
          with_cloud(toml="\n[survey]\nconductor_temperature_c = -300.0\n"),
          ProjectError, (r"\[survey\]: conductor_temperature_c = -300.0 is below absolute zero",)),
+    Case("survey temperature of a wire that is not strung",
+         with_cloud(toml='\n[[wires]]\nname = "phase_a"\n[survey]\nconductor_temperature_c = 20.0\n'
+                         '[survey.wire_temperature_c]\nphase_b = 18.0\n'),
+         ProjectError, (r"\[survey.wire_temperature_c\]: 'phase_b' is not a \[\[wires\]\] name \(wires: phase_a\)",)),
     Case("fit attachments misspelt", with_cloud(toml="\n[point_cloud]\nfit_attachments = 'loose'\n"),
          ProjectError, (r"fit_attachments = 'loose' must be one of 'free', 'fixed'",)),
     Case("point cloud file missing", with_cloud(None), DataError,

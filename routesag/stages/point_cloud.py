@@ -132,15 +132,17 @@ class FitWires(Stage):
             rows = with_prior(project, sections.loc[section_id], rows.reset_index(drop=True))
             ordered.append(rows)
             row_search = search[section_id]
-            frame, curves, _ = fit_section(rows, x, y, z, weights, row_search,
-                                                        settings.structure_gap_m, fit_settings)
+            near = near_rows(rows, x, y, float(np.max(row_search)))  # one pass over the line's points
+            frame, curves, _ = fit_section(rows, x[near], y[near], z[near], weights, row_search,
+                                           settings.structure_gap_m, fit_settings)
             frame["survey_temperature_c"] = [settings.temperature_of(w) for w in frame["wire"]]
             frame["geometry"] = [fitted_line(row, curve) for (_, row), curve in zip(rows.iterrows(), curves)]
             fits.append(frame)
             found = section_estimates(frame, curves, weights)
             states.append(found.assign(survey_temperature_c=[settings.temperature_of(w) for w in found["wire"]]))
             if settings.write_points:
-                point_rows.append(assigned_points(rows, curves, x, y, z, row_search, settings.structure_gap_m))
+                point_rows.append(assigned_points(rows, curves, x[near], y[near], z[near], row_search,
+                                                  settings.structure_gap_m))
         ordered = pd.concat(ordered, ignore_index=True)
         fits_frame = pd.concat(fits, ignore_index=True)
         record_fit_notes(ctx, fits_frame, ordered, x, y, z, search, settings.structure_gap_m)
@@ -172,6 +174,14 @@ def with_prior(project, section, rows) -> pd.DataFrame:
         priors[wire.name] = bare_state(project, section, wire, rows[rows["wire"] == wire.name],
                                        temperature_c)["catenary_m"]
     return rows.assign(prior_catenary_m=rows["wire"].map(priors))
+
+
+def near_rows(rows, x, y, reach_m) -> np.ndarray:
+    """Points inside the plan bounding box of the rows' chords grown by ``reach_m``: the only ones that can
+    match them, so each section's assignment looks at its own points only."""
+    xs, ys = np.r_[rows["x0"], rows["x1"]], np.r_[rows["y0"], rows["y1"]]
+    return ((x >= xs.min() - reach_m) & (x <= xs.max() + reach_m)
+            & (y >= ys.min() - reach_m) & (y <= ys.max() + reach_m))
 
 
 def search_distances(wire_spans, attachments, wire_search_m) -> dict:

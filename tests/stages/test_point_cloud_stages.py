@@ -118,3 +118,13 @@ def test_fixed_attachments_and_run_info_counts(tmp_path):
     assert notes["note.point_cloud_points_read"] == str(x.size + 100)
     assert notes["note.point_cloud_points_per_class"] == f'{{"2": 100, "14": {x.size}}}'
     assert int(notes["note.wire_points_unmatched"]) >= 60  # the jumper points at the structures
+
+
+def test_a_wire_of_its_own_survey_temperature_is_re_rated_from_it(tmp_path):
+    """[survey.wire_temperature_c] overrides the line's survey temperature for that wire's fits and state."""
+    project = cloud_project(tmp_path, source="as_found", extra="[survey.wire_temperature_c]\nA = 30.0\n")
+    write_las(tmp_path / "survey.laz", *wire_points(project))
+    result = routesag.run(project)
+    assert (result["wire_fits"]["survey_temperature_c"] == 30.0).all()
+    survey_rows = result["as_found"].query("state == 'survey'")
+    assert (survey_rows["temperature_c"] == 30.0).all()
