@@ -59,7 +59,8 @@ class SolveTensions(Stage):
                     ctx.warn(f"tension section {section['section_id']}, wire {wire.name}: no good wire fit; "
                              "load cases start from the design stringing")
                 try:
-                    rows += [dict(row, wire=wire.name, **as_found_columns(source, state))
+                    rows += [dict(row, wire=wire.name, stringing_temperature_c=stringing.temperature_c,
+                                  **as_found_columns(source, state))
                              for row in section_tensions(own, project, wire.conductor, stringing, spans)]
                 except SolveError as exc:  # report every section, wire and case that fails, together
                     problems.extend(exc.problems)

@@ -128,3 +128,12 @@ def test_a_wire_of_its_own_survey_temperature_is_re_rated_from_it(tmp_path):
     assert (result["wire_fits"]["survey_temperature_c"] == 30.0).all()
     survey_rows = result["as_found"].query("state == 'survey'")
     assert (survey_rows["temperature_c"] == 30.0).all()
+
+
+def test_sag_table_starts_from_the_as_found_state_at_the_survey_temperature(as_found_run):
+    """The sag table's ruling-span row at the survey temperature (25 degC) holds the fitted tension."""
+    _, result = as_found_run
+    table = result["sag_table"].query("kind == 'ruling' and temperature_c == @SURVEY_C")
+    found = result["sections"].set_index("section_id")["as_found_tension_n"]
+    np.testing.assert_allclose(table.set_index("section_id")["horizontal_tension_n"], found[table["section_id"]],
+                               rtol=1e-9)
