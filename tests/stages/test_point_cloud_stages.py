@@ -1,9 +1,12 @@
 """The point cloud in a whole run: fits per span and wire, the as-found state, re-rating, output layers."""
 import dataclasses
 
+import laspy
 import numpy as np
 import pyogrio
 import pytest
+from pyproj import CRS as PyprojCRS
+from pyproj import Transformer
 
 import routesag
 from routesag.api import compute
@@ -137,3 +140,20 @@ def test_sag_table_starts_from_the_as_found_state_at_the_survey_temperature(as_f
     found = result["sections"].set_index("section_id")["as_found_tension_n"]
     np.testing.assert_allclose(table.set_index("section_id")["horizontal_tension_n"], found[table["section_id"]],
                                rtol=1e-9)
+
+
+def test_a_point_cloud_in_another_crs_gives_the_same_fits(tmp_path):
+    """The points written in geographic WGS 84 (1e-8 degree scale, about 1 mm) are transformed to UTM 33N."""
+    project = cloud_project(tmp_path)
+    x, y, z, cls = wire_points(project)
+    lon, lat = Transformer.from_crs("EPSG:32633", "EPSG:4326", always_xy=True).transform(x, y)
+    header = laspy.LasHeader(point_format=6, version="1.4")
+    header.scales, header.offsets = np.array([1e-8, 1e-8, 0.001]), np.array([14.0, 50.0, 0.0])
+    header.add_crs(PyprojCRS.from_user_input("EPSG:4326"))
+    las = laspy.LasData(header)
+    las.x, las.y, las.z, las.classification = lon, lat, z, cls.astype(np.uint8)
+    las.write(str(tmp_path / "survey.laz"))
+    fits = routesag.run(project)["wire_fits"]
+    assert list(fits["quality"]) == ["good"] * 3
+    np.testing.assert_allclose(fits["horizontal_tension_n"], fits["section_id"].map(true_tensions(project)),
+                               rtol=0.01)
