@@ -38,8 +38,7 @@ def crown_centre():
     return np.array([X0 + SPAN_M / 2, LINE_Y + CROWN_OFFSET_M, z])
 
 
-@pytest.fixture
-def tree_run(tmp_path):
+def tree_project(tmp_path, required="surface = 3.0"):
     write_plane_raster(tmp_path / "terrain.tif", a=GROUND_Z)
     write_structures(tmp_path / "structures.gpkg", [(X0, LINE_Y), (X0 + SPAN_M, LINE_Y)], kinds=["strain", "strain"])
     x, y, z = sphere_points(crown_centre(), CROWN_R)
@@ -51,10 +50,22 @@ def tree_run(tmp_path):
     write_las(tmp_path / "survey.laz", x, y, z, cls)
     project = write_project(tmp_path, tension_kn=TENSION_KN, attach_height_m=ATTACH_M, ground_m=5.0,
                             cases=[("still", 15.0, 0.0, 0.0), ("wind", 15.0, 0.0, 300.0)],
-                            extra="\n[clearance.required_m]\nsurface = 3.0\n")
+                            extra=f"\n[clearance.required_m]\n{required}\n")
     project.write_text(project.read_text().replace('terrain = "terrain.tif"',
                                                    'terrain = "terrain.tif"\npoint_cloud = "survey.laz"'))
-    return routesag.run(project)
+    return project
+
+
+@pytest.fixture
+def tree_run(tmp_path):
+    return routesag.run(tree_project(tmp_path))
+
+
+def test_a_vegetation_rule_of_its_own_replaces_the_surface_rule(tmp_path):
+    """[clearance.required_m] vegetation = 0.5 m: the crown 0.54 m from the wire at rest is no violation."""
+    result = routesag.run(tree_project(tmp_path, "surface = 3.0\nvegetation = 0.5"))
+    assert len(result["clearance_violations"]) == 0
+    assert (result["conductors"]["status"] == "clear").all()
 
 
 def test_tree_points_give_the_analytic_3d_distance_within_2_cm(tree_run):
