@@ -34,6 +34,8 @@ DEFAULT_CHAIN = ("read_inputs", "build_spans", "check_spans", "solve_tensions", 
                  "build_conductors", "check_sags", "sample_terrain", "read_crossings", "classify_stations",
                  "sample_surface", "check_clearance", "find_unknowns", "find_hotspots", "check_tension_limits",
                  "build_sag_table", "assemble_layers", "write_geopackage")
+# The LiDAR point cloud: wire fits, the as-found state, vegetation and buildings from the points.
+DEFAULT_CHAIN += ("read_point_cloud", "fit_wires", "compare_as_found", "measure_point_clearance")
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)

@@ -5,6 +5,9 @@ import math
 
 from routesag.stages.output import CAUTION
 
+#: A section wire whose fitted tension differs from the design by more than this is listed [%].
+AS_FOUND_LISTED_PERCENT = 2.0
+
 
 def _fmt(value, digits=2) -> str:
     return "unknown" if value is None or (isinstance(value, float) and math.isnan(value)) else f"{value:.{digits}f}"
@@ -39,6 +42,7 @@ def summary_text(result, per_span: bool = False) -> str:
     lines.extend(_hotspot_lines(layers.get("hotspots")))
     lines.extend(_uplift_lines(layers.get("structure_loads")))
     lines.extend(_tension_lines(result))
+    lines.extend(as_found_lines(layers))
     lines.extend(_unknown_lines(layers.get("unknown_stretches"), conductors))
     for message in result.warnings:
         lines.append(f"warning: {message}")
@@ -126,4 +130,24 @@ def _tension_lines(result) -> list[str]:
         lines.append(f"  section {e['section_id']}{_wire(e)} [{e['load_case']}, {e['condition']}]: {e['limit']} exceeded "
                      f"({e['percent_rts']:.1f} % RTS, H/w {e['catenary_m']:.0f} m; "
                      f"{100 * e['utilisation']:.1f} % of the limit)")
+    return lines
+
+
+def as_found_lines(layers) -> list[str]:
+    """The fitted as-found state against the design, per section and wire (those off by more than 2 %)."""
+    fits, table = layers.get("wire_fits"), layers.get("as_found")
+    if fits is None or table is None:
+        return []
+    good = int((fits["quality"] == "good").sum())
+    survey = table[table["state"] == "survey"].drop_duplicates(["section_id", "wire"])
+    lines = [f"as-found state from the wire points: {good} of {len(fits)} fits good, {len(survey)} section wires "
+             f"with a fitted tension"]
+    off = survey[survey["tension_difference_percent"].abs() > AS_FOUND_LISTED_PERCENT]
+    for _, row in off.iterrows():
+        lines.append(f"  {row['section_id']} {row['wire']}: {row['as_found_tension_n'] / 1e3:.2f} kN as found vs "
+                     f"{row['design_tension_n'] / 1e3:.2f} kN design at {row['temperature_c']:g} degC "
+                     f"({row['tension_difference_percent']:+.1f} %); load cases from the {row['tension_source']} "
+                     "state")
+    if len(survey) > len(off):
+        lines.append(f"  {len(survey) - len(off)} more within {AS_FOUND_LISTED_PERCENT:g} % of the design")
     return lines

@@ -360,7 +360,8 @@ def write_project(path):
 
 
 def write_sample_survey(folder):
-    """Write structures.gpkg, terrain.tif, crossings.gpkg, surface.tif and project.toml into ``folder``.
+    """Write structures.gpkg, terrain.tif, crossings.gpkg, surface.tif, project.toml and survey.laz
+    (:mod:`routesag.sample_cloud`) into ``folder``.
 
     Existing files of those names are replaced; other files are left alone.
 
@@ -383,6 +384,9 @@ def write_sample_survey(folder):
     write_terrain(folder / TERRAIN_FILE)
     write_clearance_inputs(folder)
     write_project(folder / PROJECT_FILE)
+    from routesag.sample_cloud import write_point_cloud  # it builds on this module
+
+    write_point_cloud(folder)
     return folder / PROJECT_FILE
 
 
@@ -547,7 +551,9 @@ def project_text():
         assert anchor in text, f"project text has no {anchor!r} to extend"
         text = text.replace(anchor, anchor + added, 1)
     assert "[output]" in text
-    return text.replace("[output]", CLEARANCE_TABLES_TOML + "[output]", 1)
+    from routesag.sample_cloud import project_text as with_point_cloud  # it builds on this module
+
+    return with_point_cloud(text.replace("[output]", CLEARANCE_TABLES_TOML + "[output]", 1))
 
 
 def write_clearance_inputs(folder):

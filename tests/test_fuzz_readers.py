@@ -22,10 +22,12 @@ from hypothesis import strategies as st
 import routesag
 from routesag.errors import RoutesagError
 from routesag.io.crossings import check_crossings, read_crossings_file
+from routesag.io.pointcloud import chord_corridor, read_points
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.project import ClearanceRules, load_project
 from routesag.stages.surface import SurfaceModel
+from tests.cloud_survey import write_las
 from tests.conftest import CRS, X0, Y0, write_plane_raster, write_project, write_structures
 
 TIME_LIMIT_S = 20
@@ -90,11 +92,18 @@ def read_surface(path, terrain_path):
         model.sample([profile])
 
 
+def read_point_cloud_file(path):
+    """Read a point cloud (LAS/LAZ or CSV) into the working CRS, cut to a corridor, as read_point_cloud does."""
+    corridor = chord_corridor([X0], [Y0], [X0 + 300.0], [Y0], 20.0)
+    read_points(path, CRS, corridor, crs=CRS if path.suffix == ".csv" else None, chunk_points=500)
+
+
 # Reader name -> (file extension, reader). A wrong-typed file is the valid file of another reader, unless both
 # take the same kind of file (terrain and surface model are both elevation rasters).
 READERS = {"structures": (".gpkg", read_structures), "structures_csv": (".csv", read_structures),
            "terrain": (".tif", read_terrain), "project": (".toml", load_project),
-           "crossings": (".gpkg", read_crossings), "surface": (".tif", None)}
+           "crossings": (".gpkg", read_crossings), "surface": (".tif", None),
+           "point_cloud": (".laz", read_point_cloud_file), "point_csv": (".csv", read_point_cloud_file)}
 SAME_KIND = {frozenset({"terrain", "surface"})}
 
 
@@ -114,8 +123,12 @@ def valid(tmp_path_factory):
                                shapely.LineString([(X0 + 400, Y0 - 80), (X0 + 420, Y0 + 80)])],
                      crs=CRS).to_file(folder / "crossings.gpkg", layer="crossings", driver="GPKG")
     write_project(folder)
+    write_las(folder / "points.laz", np.linspace(X0, X0 + 300.0, 2000), np.full(2000, Y0 + 1.0),
+              np.linspace(110.0, 120.0, 2000), np.full(2000, 14))
+    (folder / "points.csv").write_text(f"x,y,z,classification\n{X0 + 10},{Y0},110.5,14\n{X0 + 20},{Y0 + 1},111,5\n")
     files = {"structures": "structures.gpkg", "structures_csv": "structures.csv", "terrain": "terrain.tif",
-             "project": "project.toml", "crossings": "crossings.gpkg", "surface": "surface.tif"}
+             "project": "project.toml", "crossings": "crossings.gpkg", "surface": "surface.tif",
+             "point_cloud": "points.laz", "point_csv": "points.csv"}
     data = {name: (folder / file).read_bytes() for name, file in files.items()}
     data["terrain_path"] = folder / "terrain.tif"
     return data

@@ -178,7 +178,8 @@ def test_project_has_three_phases_and_an_earth_wire(survey):
 
     earth_conductor = find_conductor(earth["conductor"]["name"])  # the demo picks it from the catalog
     assert earth_conductor.properties()["diameter_mm"] < survey["project"]["conductor"]["diameter_mm"]
-    assert set(earth["stringing"]) == {"temperature_c", "tension_percent_rts", "creep_allowance_c"}
+    # (source: its load cases start from the fitted survey state, as the phases' do)
+    assert set(earth["stringing"]) == {"temperature_c", "tension_percent_rts", "creep_allowance_c", "source"}
     # Every case is final (the line's allowance is given), so the earth wire's own stringing needs its own
     # allowance; the demo's (invented) value is smaller than the phases'.
     assert 0.0 <= earth["stringing"]["creep_allowance_c"] < survey["project"]["stringing"]["creep_allowance_c"]

@@ -110,6 +110,25 @@ def with_crossings(crs, layer="crossings"):
     return build
 
 
+def with_cloud(cloud_text: str | None = "x,y,z\n", name="cloud.csv", toml="", stringing_source=None):
+    """Good survey reading a point cloud file holding ``cloud_text`` (none written when None), plus TOML."""
+    def build(tmp: Path) -> Path:
+        project = good_survey(tmp)
+        if cloud_text is not None:
+            (tmp / name).write_text(cloud_text)
+        edit(project, 'terrain = "terrain.tif"',
+             f'terrain = "terrain.tif"\npoint_cloud = "{name}"\npoint_cloud_crs = "{CRS}"')
+        if stringing_source:
+            edit(project, "horizontal_tension_kn = 30.0", f"horizontal_tension_kn = 30.0\nsource = '{stringing_source}'")
+        project.write_text(project.read_text() + toml)
+        return project
+    return build
+
+
+def no_cloud_but(toml: str):
+    return lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "out.gpkg"\n' + toml)
+
+
 @dataclass
 class Case:
     id: str
@@ -291,6 +310,38 @@ CASES = [
     Case("plugin stage list holds a number",
          lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "out.gpkg"\n[pipeline]\nstages = [3]'),
          ProjectError, (r"\[pipeline\]: stages = \[3\] must list stage names as text",)),
+    # -- point cloud -----------------------------------------------------------------------------------------
+    Case("point cloud settings without a point cloud", no_cloud_but("[point_cloud]\nwire_search_m = 2.0"),
+         ProjectError, (r"\[point_cloud\] needs \[inputs\] point_cloud",)),
+    Case("as-found stringing without a point cloud",
+         lambda tmp: edit(good_survey(tmp), "horizontal_tension_kn = 30.0",
+                          "horizontal_tension_kn = 30.0\nsource = 'as_found'"),
+         ProjectError, (r"\[stringing\]: source = 'as_found' needs \[inputs\] point_cloud",)),
+    Case("as-found stringing without a survey temperature", with_cloud(stringing_source="as_found"),
+         ProjectError, (r"source = 'as_found' needs \[survey\] conductor_temperature_c",)),
+    Case("stringing source misspelt", with_cloud(stringing_source="asfound"),
+         ProjectError, (r"\[stringing\]: source = 'asfound' must be one of 'design', 'as_found'",)),
+    Case("wire class not a LAS class", with_cloud(toml="\n[point_cloud]\nwire_classes = [14, 300]\n"),
+         ProjectError, (r"\[point_cloud\]: wire_classes = \[14, 300\] must list LAS classes as whole numbers 0-255",)),
+    Case("a class both wire and surface", with_cloud(toml="\n[point_cloud]\nwire_classes = [5]\n"),
+         ProjectError, (r"class\(es\) 5 are in both wire_classes and surface_classes",)),
+    Case("survey temperature below absolute zero",
+         with_cloud(toml="\n[survey]\nconductor_temperature_c = -300.0\n"),
+         ProjectError, (r"\[survey\]: conductor_temperature_c = -300.0 is below absolute zero",)),
+    Case("survey temperature of a wire that is not strung",
+         with_cloud(toml='\n[[wires]]\nname = "phase_a"\n[survey]\nconductor_temperature_c = 20.0\n'
+                         '[survey.wire_temperature_c]\nphase_b = 18.0\n'),
+         ProjectError, (r"\[survey.wire_temperature_c\]: 'phase_b' is not a \[\[wires\]\] name \(wires: phase_a\)",)),
+    Case("fit attachments misspelt", with_cloud(toml="\n[point_cloud]\nfit_attachments = 'loose'\n"),
+         ProjectError, (r"fit_attachments = 'loose' must be one of 'free', 'fixed'",)),
+    Case("point cloud file missing", with_cloud(None), DataError,
+         (r"point cloud .*cloud\.csv: not found",)),
+    Case("point cloud CSV without z", with_cloud("x,y\n1,2\n"), DataError,
+         (r"point cloud .*cloud\.csv: missing column\(s\) z",)),
+    Case("point cloud CSV with a text elevation", with_cloud("x,y,z\n1,2,3\n4,5,high\n"), DataError,
+         (r"point cloud .*cloud\.csv: row 2: field 'z' = 'high' is not a number",)),
+    Case("point cloud LAZ that is not one", with_cloud("not a point cloud", name="cloud.laz"), DataError,
+         (r"point cloud .*cloud\.laz: cannot be read as LAS/LAZ",)),
     # -- output ----------------------------------------------------------------------------------------------
     Case("output over an input file",
          lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "structures.gpkg"'),

@@ -14,7 +14,7 @@ from pathlib import Path
 from routesag.errors import ProjectError
 from routesag.physics.thermal import Weather
 from routesag.project.model import (
-    ClearanceRules, Conductor, LoadCase, Project, Stringing, TensionLimit, Wire,
+    ClearanceRules, Conductor, LoadCase, PointCloudSettings, Project, Stringing, TensionLimit, Wire,
 )
 from routesag.project.schema import MAX_ATTACH_HEIGHT_M, REQUIRED, SCHEMA, TENSION_KEYS, Key
 from routesag.project.validation import _conductor_from, _wire_label, resolve_conductor, validate_settings
@@ -96,7 +96,8 @@ def _build_project(path: Path, s: dict, output) -> Project:
         crossings_path=None if inputs["crossings"] is None else (base / inputs["crossings"]).resolve(),
         crossings_layer=inputs["crossings_layer"],
         surface_path=None if inputs["surface"] is None else (base / inputs["surface"]).resolve(),
-        surface_values=inputs["surface_values"], clearance=_clearance_rules(s["clearance"]))
+        surface_values=inputs["surface_values"], clearance=_clearance_rules(s["clearance"]),
+        point_cloud=_point_cloud_settings(base, s))
 
 
 def _weather(case: dict) -> Weather | None:
@@ -135,6 +136,19 @@ def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, strin
         conductor=conductor if own is None else resolve_conductor(own, f"{path}: {_wire_label(index, entry)} "
                                                                         "conductor"),
         stringing=stringing if entry["stringing"] is None else Stringing(**entry["stringing"]))
+
+
+def _point_cloud_settings(base: Path, s: dict) -> PointCloudSettings | None:
+    inputs, cloud, survey = s["inputs"], s["point_cloud"], s["survey"]
+    if inputs["point_cloud"] is None:
+        return None
+    return PointCloudSettings(
+        path=(base / inputs["point_cloud"]).resolve(), layer=inputs["point_cloud_layer"],
+        crs=inputs["point_cloud_crs"], corridor_m=cloud["corridor_m"], wire_classes=tuple(cloud["wire_classes"]),
+        surface_classes=tuple(cloud["surface_classes"]), structure_gap_m=cloud["structure_gap_m"],
+        wire_search_m=cloud["wire_search_m"], fit_attachments=cloud["fit_attachments"],
+        write_points=cloud["write_points"], survey_temperature_c=survey["conductor_temperature_c"],
+        wire_temperature_c=dict(survey["wire_temperature_c"]))
 
 
 def _clearance_rules(c: dict) -> ClearanceRules:

@@ -113,6 +113,7 @@ class Stringing:
     final_horizontal_tension_kn: float | None = None
     from_limits: bool = False
     method: str = "section"
+    source: str = "design"      # "as_found": load cases start from the section's fitted survey state
 
     def state_temperature_c(self, temperature_c: float, condition: str) -> float:
         """Temperature at which the initial state stands for ``condition`` [degC].
@@ -197,6 +198,28 @@ class ClearanceRules:
         return self.cases is None or load_case in self.cases
 
 
+@dataclass(frozen=True)
+class PointCloudSettings:
+    """The ``[point_cloud]`` and ``[survey]`` settings, in SI units."""
+
+    path: Path
+    layer: str | None = None
+    crs: str | None = None
+    corridor_m: float | None = None
+    wire_classes: tuple[int, ...] = (14,)
+    surface_classes: tuple[int, ...] = (3, 4, 5, 6)
+    structure_gap_m: float = 5.0
+    wire_search_m: float = 1.5
+    fit_attachments: str = "free"
+    write_points: bool = False
+    survey_temperature_c: float | None = None
+    wire_temperature_c: dict = field(default_factory=dict)
+
+    def temperature_of(self, wire: str) -> float | None:
+        """Survey conductor temperature of a wire: its own, else the line's [degC] (None: not given)."""
+        return self.wire_temperature_c.get(wire, self.survey_temperature_c)
+
+
 @dataclass
 class Project:
     """A validated project: every setting in SI units, paths resolved."""
@@ -226,6 +249,7 @@ class Project:
     surface_path: Path | None = None
     surface_values: str = "elevation"
     clearance: ClearanceRules = field(default_factory=ClearanceRules)
+    point_cloud: PointCloudSettings | None = None
 
     @property
     def base_dir(self) -> Path:
@@ -240,7 +264,8 @@ class Project:
     def input_paths(self) -> dict[str, Path]:
         """Every input file by role, for provenance."""
         paths = {"project": self.path, "structures": self.structures_path, "terrain": self.terrain_path,
-                 "crossings": self.crossings_path, "surface": self.surface_path}
+                 "crossings": self.crossings_path, "surface": self.surface_path,
+                 "point_cloud": self.point_cloud.path if self.point_cloud else None}
         return {role: path for role, path in paths.items() if path is not None}
 
 

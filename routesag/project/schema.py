@@ -64,6 +64,11 @@ def crs_text(value):
     return None
 
 
+def las_classes(value):
+    bad = [v for v in value if isinstance(v, bool) or not isinstance(v, int) or not 0 <= v <= 255]
+    return f"must list LAS classes as whole numbers 0-255 (not {bad[0]!r})" if bad else None
+
+
 def list_of_text(value):
     bad = [item for item in value if not isinstance(item, str)]
     return f"must list stage names as text (not {bad[0]!r})" if bad else None
@@ -142,6 +147,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "height_units": Key(str, None, one_of("m", "ft", "ftUS"),
                             "unit of attach_height_m, insulator_m and ground_z_m in the structures file "
                             "(default m)"),
+        "point_cloud": Key(str, None, doc="LiDAR point cloud: LAS/LAZ, or a point layer with Z (GeoPackage, "
+                                          "FlatGeobuf, CSV with x, y, z), optional classification field"),
+        "point_cloud_layer": Key(str, None, doc="layer name inside a multi-layer point source"),
+        "point_cloud_crs": Key(str, None, crs_text, doc="CRS of a point cloud whose file names none (CSV)"),
         "fields": Key(dict, {}, doc="the file's field names: routesag name = \"file's name\"",
                       table=FIELDS_TABLE),
     },
@@ -176,6 +185,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "from_limits": Key(bool, False, doc="stringing tension: the largest that meets every [[limits]] entry"),
         "method": Key(str, "section", one_of("section", "ruling_span"),
                       "change of state of the whole section (exact inclined spans) or on the level ruling span"),
+        "source": Key(str, "design", one_of("design", "as_found"),
+                      "state the load cases start from: this table, or each section's fitted survey state"),
     },
     "load_cases": {
         "name": Key(str),
@@ -231,6 +242,26 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "required_m": Key(dict, {}, doc="base clearances by category", table=REQUIRED_M_TABLE,
                           other=Key(NUMBER, check=positive, doc="base clearance of a user category [m]")),
         "adder": Key(dict, {}, doc="voltage adder", table=ADDER_TABLE),
+    },
+    "point_cloud": {
+        "corridor_m": Key(NUMBER, None, positive, "half width of the kept corridor around the line [m] "
+                                                  "(default: wire offset + blowout + clearance reach + margin)"),
+        "wire_classes": Key(list, [14], las_classes, "LAS classes of wire points (14 conductor, 13 shield)"),
+        "surface_classes": Key(list, [3, 4, 5, 6], las_classes,
+                               "LAS classes of surface points (3-5 vegetation, 6 building); [] for none"),
+        "structure_gap_m": Key(NUMBER, 5.0, non_negative, "wire points this close to a structure are ignored "
+                                                          "(jumpers, hardware) [m]"),
+        "wire_search_m": Key(NUMBER, 1.5, positive, "largest plan distance of a wire point from its wire [m]"),
+        "fit_attachments": Key(str, "free", one_of("free", "fixed"),
+                               "attachment heights fitted with the curve, or held at the structures' clamps"),
+        "write_points": Key(bool, False, doc="write the assigned wire points as the wire_points layer"),
+    },
+    "survey": {
+        "conductor_temperature_c": Key(NUMBER, None, above_absolute_zero,
+                                       "conductor temperature during the survey flight [degC]"),
+        "wire_temperature_c": Key(dict, {}, doc="a wire's own survey temperature: wire name = degC", table={},
+                                  other=Key(NUMBER, check=above_absolute_zero,
+                                            doc="survey conductor temperature of that wire [degC]")),
     },
     "output": {
         "path": Key(str, "results.gpkg", doc="GeoPackage to write"),

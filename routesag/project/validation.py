@@ -11,6 +11,7 @@ from routesag.physics.clearance_rules import DEFAULT_REQUIRED_M
 from routesag.physics.loads import G
 from routesag.physics.two_material import TwoMaterialConductor
 from routesag.project.model import Conductor
+from routesag.project.point_cloud_checks import check_point_cloud
 from routesag.project.schema import (
     ARRAY_TABLES, CREEP_KEYS, MEMBER_KEYS, NUMBER, REQUIRED, REQUIRED_TABLES, SCHEMA, TENSION_KEYS, Key,
 )
@@ -48,6 +49,7 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
     _set_conditions(source, settings, problems)
     _check_limits(source, settings, problems)
     _check_clearance(source, raw.get("clearance"), settings, problems)
+    check_point_cloud(source, raw, settings, problems)
     return settings, problems
 
 

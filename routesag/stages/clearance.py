@@ -13,11 +13,12 @@ import pandas as pd
 from routesag.physics.bilinear import zero_crossing_bounds
 from routesag.pipeline import Stage
 from routesag.profiles import profile_identity, runs, station_edges, station_lengths  # noqa: F401 (re-exported)
+from routesag.stages.point_clearance import closer_surface, find_point_violations
 
 
 class CheckClearance(Stage):
     name = "check_clearance"
-    requires = ("project", "conductors", "ground", "station_rules", "surface")
+    requires = ("project", "conductors", "ground", "station_rules", "surface", "point_surface")
     provides = ("clearance", "violations")
     per_section = True
     description = ("vertical clearance per station against its category's required value, 3D distance to the "
@@ -40,6 +41,10 @@ class CheckClearance(Stage):
             if surface is not None:
                 near = find_surface_violations(profile, ground, surface, rules.required_m["surface"])
                 unknown = unknown | surface.unknown
+            points = data["point_surface"].of(profile)
+            if points is not None:  # vegetation and buildings from the point cloud
+                near = near + find_point_violations(profile, ground, points, rules.required_m)
+                unknown, surface = unknown | points.unknown, closer_surface(surface, points)
             summaries.append(summarise(profile, clearance, required, unknown, bool(near), surface))
             violations.extend(found + near)
         return {"clearance": pd.DataFrame(summaries), "violations": pd.DataFrame(violations)}

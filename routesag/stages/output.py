@@ -50,6 +50,9 @@ class AssembleLayers(Stage):
         layers["hotspots"] = (hotspots_layer(data["hotspots"], crs), "Point Z")
         layers["unknown_stretches"] = (unknown_stretches_layer(data["unknown_stretches"], spans, crs),
                                        "LineString Z")
+        for name, geometry in ctx.output_layers.items():  # layers contributed by other stages
+            if data.get(name) is not None:
+                layers[name] = (data[name], geometry)
         layers["run_info"] = (run_info_table(data["project"], ctx), None)
         return {"layers": layers}
 
@@ -101,6 +104,7 @@ def sections_layer(sections, tensions) -> pd.DataFrame:
     design["stringing_percent_rts"] = 100.0 * design["stringing_tension_n"] / design["rated_strength_n"]
     columns = ["stringing_tension_n", "stringing_percent_rts", "design_tension_n", "governing_case",
                "governing_limit", "stringing_method", "knee_point_initial_c", "knee_point_final_c"]
+    columns += [c for c in ("as_found_tension_n", "as_found_spread_percent", "tension_source") if c in design]
     return sections.merge(design[keys + columns], on="section_id", how="left")
 
 
@@ -118,7 +122,7 @@ def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFr
     if len(frame):
         ends = spans[["span_id", "from_id", "to_id"]]
         case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "current_a", "ice_mm", "wind_pa",
-                              "condition", "rated_strength_n"]]
+                              "condition", "rated_strength_n"] + [c for c in ("tension_source",) if c in tensions]]
         frame = (frame.merge(ends, on="span_id", how="left")
                  .merge(case_info, on=["section_id", "wire", "load_case"], how="left")
                  .merge(clearance, on=["span_id", "wire", "load_case"], how="left"))

@@ -47,28 +47,37 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
     The stringing tension of each section and wire is read from ``tensions``
     (``stringing_tension_n``), so a design tension found from the limits is used.
     """
-    stringing_n = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])[
-        "stringing_tension_n"]
+    first = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])
+    stringing_n = first["stringing_tension_n"]
+    # the temperature of the state the tensions start from (the survey's when re-rated from the as-found state)
+    stringing_c = first["stringing_temperature_c"] if "stringing_temperature_c" in first else None
     by_wire = dict(tuple(wire_spans.groupby(["section_id", "wire"], sort=False)))
     frames = []
     for _, section in sections.iterrows():
         for wire in project.line_wires(section["line_id"]):
             key = (section["section_id"], wire.name)
-            frames.append(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c))
+            start_c = None if stringing_c is None else float(stringing_c[key])
+            frames.append(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
+                                            start_c))
     if not frames:
         return pd.DataFrame(columns=COLUMNS)
     return pd.concat(frames, ignore_index=True)[COLUMNS]
 
 
-def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c) -> pd.DataFrame:
-    """The sag table of one wire in one tension section (ruling span first, then its spans in order)."""
+def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
+                      stringing_temperature_c=None) -> pd.DataFrame:
+    """The sag table of one wire in one tension section (ruling span first, then its spans in order).
+
+    ``stringing_tension_n`` holds at ``stringing_temperature_c`` (default: the wire's stringing temperature).
+    """
     c, stringing = wire.conductor, wire.stringing
+    start_c = stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
     w_n_m = float(bare_weight_n_m(c.mass_kg_m))
     ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
     temps = np.asarray(temperatures_c, dtype=float)
-    law = c.law(stringing.temperature_c)  # initial condition: linear composite or the two members uncrept
-    h_n = np.array([change_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, stringing.temperature_c, w_n_m, t,
-                                           law, law) for t in temps])
+    law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
+    h_n = np.array([change_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, start_c, w_n_m, t, law, law)
+                    for t in temps])
     ruling = {"kind": "ruling", "span_id": None, "from_id": None, "to_id": None}
     span_rows = [{"kind": "span", "span_id": s.span_id, "from_id": s.from_id, "to_id": s.to_id}
                  for s in spans.itertuples()]

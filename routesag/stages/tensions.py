@@ -23,6 +23,7 @@ from routesag.physics.section_solver import section_change_of_state_by_law
 from routesag.physics.state_change import change_of_state_by_law
 from routesag.physics.two_material import creep_strain_for_final_tension, knee_point_temperature_c
 from routesag.pipeline import Stage
+from routesag.stages.as_found import as_found_columns, reference_stringing
 from routesag.stages.limits import design_stringing_tension
 
 #: Slackest stringing tried by the design search: catenary constant = ruling span (sag about 13 % of span).
@@ -31,7 +32,7 @@ DESIGN_LOWEST_CATENARY_PER_SPAN = 1.0
 
 class SolveTensions(Stage):
     name = "solve_tensions"
-    requires = ("project", "sections", "wire_spans")
+    requires = ("project", "sections", "wire_spans", "as_found_states")
     provides = ("tensions",)
     description = ("change of state from the stringing state to every load case (initial or final), per "
                    "tension section and wire; stringing tension from the tension limits on request")
@@ -54,9 +55,16 @@ class SolveTensions(Stage):
                 spans = by_wire[(section["section_id"], wire.name)]
                 own = section.copy()
                 own["ruling_span_m"] = spans["ruling_span_m"].iloc[0]  # the wire's own spans
+                # the state the load cases start from: the design stringing or the section's as-found state
+                stringing, source, state = reference_stringing(wire.stringing, data["as_found_states"],
+                                                               section["section_id"], wire.name)
+                if source != wire.stringing.source:
+                    ctx.warn(f"tension section {section['section_id']}, wire {wire.name}: no good wire fit; "
+                             "load cases start from the design stringing")
                 try:
-                    rows += [dict(row, wire=wire.name)
-                             for row in section_tensions(own, project, wire.conductor, wire.stringing, spans)]
+                    rows += [dict(row, wire=wire.name, stringing_temperature_c=stringing.temperature_c,
+                                  **as_found_columns(source, state))
+                             for row in section_tensions(own, project, wire.conductor, stringing, spans)]
                 except SolveError as exc:  # report every section, wire and case that fails, together
                     problems.extend(exc.problems)
         if problems:

@@ -18,21 +18,21 @@ UNKNOWN_COLUMNS = ["span_id", "load_case", "start_m", "end_m", "length_m", "reas
 
 class FindUnknowns(Stage):
     name = "find_unknowns"
-    requires = ("project", "conductors", "ground", "surface")
+    requires = ("project", "conductors", "ground", "surface", "point_surface")
     provides = ("unknown_stretches",)
     per_section = True
     description = "stretches of wire over terrain or surface nodata (unknown clearance, never clear)"
 
     def run(self, data, ctx):
         rules = data["project"].clearance
-        ground, surface = data["ground"], data["surface"]
+        ground, surface, points = data["ground"], data["surface"], data["point_surface"]
         rows = [row for profile in data["conductors"] if rules.checks(profile.load_case)
-                for row in unknown_stretches(profile, ground.of(profile), surface.of(profile))]
+                for row in unknown_stretches(profile, ground.of(profile), surface.of(profile), points.of(profile))]
         frame = pd.DataFrame(rows) if rows else pd.DataFrame(columns=UNKNOWN_COLUMNS + ["geometry"])
         return {"unknown_stretches": frame}
 
 
-def unknown_stretches(profile, ground, surface=None) -> list[dict]:
+def unknown_stretches(profile, ground, surface=None, points=None) -> list[dict]:
     """One record per contiguous stretch of stations with unknown clearance.
 
     A station stands for the wire from half-way to its previous station to
@@ -42,6 +42,8 @@ def unknown_stretches(profile, ground, surface=None) -> list[dict]:
     reasons = {"terrain": np.isnan(ground)}
     if surface is not None:
         reasons["surface"] = surface.unknown
+    if points is not None:  # the reach runs past the point cloud's kept corridor
+        reasons["points"] = points.unknown
     unknown = np.logical_or.reduce(list(reasons.values()))
     stations = profile.stations_m
     edges = station_edges(stations)

@@ -1,7 +1,7 @@
 """Fits of every span and wire of one tension section from its surveyed wire points.
 
-Pure functions over one section's data, so a stage (not registered yet) can
-run sections independently: assign the points to (span, wire), fit each
+Pure functions over one section's data (used by :mod:`routesag.stages.point_cloud`), so sections can
+be run independently: assign the points to (span, wire), fit each
 span's catenary, and estimate the section's tension per wire from the good fits.
 """
 from __future__ import annotations
@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from routesag.physics.wire_assignment import AMBIGUOUS, UNMATCHED, assign_points
+from routesag.physics.wire_assignment import AMBIGUOUS, UNMATCHED, assign_points, assign_points_by_height
 from routesag.physics.wire_fit import FitSettings, fit_catenary, section_tension
 
 FIT_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "wire", "n_points", "n_outliers", "rms_m",
@@ -39,7 +39,7 @@ def fit_section(wire_spans: pd.DataFrame, x_m, y_m, z_m, weight_n_m: dict, searc
         counts {"unmatched": n, "ambiguous": n}).
     """
     rows = wire_spans.reset_index(drop=True)
-    chord, along, _ = assign_points(x_m, y_m, rows["x0"], rows["y0"], rows["x1"], rows["y1"], search_m, gap_m)
+    chord, along = assign_section(rows, x_m, y_m, search_m, gap_m, z_m)
     z = np.asarray(z_m, dtype=float)
     records, fits = [], []
     for i, row in rows.iterrows():
@@ -55,6 +55,19 @@ def fit_section(wire_spans: pd.DataFrame, x_m, y_m, z_m, weight_n_m: dict, searc
                         "reason": fit.reason})
     counts = {"unmatched": int((chord == UNMATCHED).sum()), "ambiguous": int((chord == AMBIGUOUS).sum())}
     return pd.DataFrame(records, columns=FIT_COLUMNS), fits, counts
+
+
+def assign_section(rows: pd.DataFrame, x_m, y_m, search_m=1.5, gap_m=5.0, z_m=None):
+    """(row index per point, or UNMATCHED / AMBIGUOUS; distance along its chord [m]) for ``rows`` of
+    ``wire_spans`` in order. With a ``prior_catenary_m`` column and the points' ``z_m``, wires stacked in
+    plan are told apart by height."""
+    if z_m is not None and "prior_catenary_m" in rows:
+        chord, along, _ = assign_points_by_height(x_m, y_m, z_m, rows["x0"], rows["y0"], rows["z0"], rows["x1"],
+                                                  rows["y1"], rows["z1"], rows["prior_catenary_m"], search_m,
+                                                  gap_m)
+    else:
+        chord, along, _ = assign_points(x_m, y_m, rows["x0"], rows["y0"], rows["x1"], rows["y1"], search_m, gap_m)
+    return chord, along
 
 
 def section_estimates(fits: pd.DataFrame, catenary_fits, weight_n_m: dict) -> pd.DataFrame:

@@ -1,4 +1,5 @@
 """LAS/LAZ reading: round trips through laspy, chunked reading, corridor cut, CRS from the file or the project."""
+import time
 import tracemalloc
 
 import laspy
@@ -93,7 +94,8 @@ def test_not_a_point_cloud_is_a_data_error(tmp_path):
 def test_truncated_or_corrupted_files_are_data_errors(tmp_path, suffix):
     """Whatever the bytes: the points or a DataError naming the file, never another exception.
 
-    One damaged LAZ case (a corrupted CRS WKT) takes PROJ about 35 s to refuse; kept, as it shows that cost.
+    One damaged LAZ case claims millions of VLRs (laspy used to build them all, for about a minute); the header
+    check refuses it at once, so the whole set is bounded in time.
     """
     x, y, z, cls = random_points(3000)
     good = write_cloud(tmp_path / f"good{suffix}", x, y, z, cls).read_bytes()
@@ -104,6 +106,7 @@ def test_truncated_or_corrupted_files_are_data_errors(tmp_path, suffix):
         for i in rng.integers(0, len(good), 20):
             damaged[i] = int(rng.integers(0, 256))
         cases.append(bytes(damaged))
+    start = time.perf_counter()
     for i, data in enumerate(cases):
         path = tmp_path / f"case{i}{suffix}"
         path.write_bytes(data)
@@ -111,3 +114,15 @@ def test_truncated_or_corrupted_files_are_data_errors(tmp_path, suffix):
             read_point_cloud(path, work_crs="EPSG:32633", chunk_points=700)
         except DataError as exc:
             assert path.name in str(exc)
+    # a generous bound on a shared 2-core machine; the unbounded case alone took 35-60 s
+    assert time.perf_counter() - start < 15.0
+
+
+def test_a_header_claiming_more_records_than_fit_is_refused_at_once(tmp_path):
+    x, y, z, cls = random_points(100)
+    data = bytearray(write_cloud(tmp_path / "good.laz", x, y, z, cls).read_bytes())
+    data[100:104] = (50_000_000).to_bytes(4, "little")  # number of VLRs (ASPRS LAS 1.4 R15, Table 3)
+    bad = tmp_path / "bad.laz"
+    bad.write_bytes(bytes(data))
+    with pytest.raises(DataError, match=r"bad\.laz: the header claims 50000000 variable-length records"):
+        read_point_cloud(bad)
