@@ -5,19 +5,21 @@ import math
 
 from routesag.stages.output import CAUTION
 
+#: Violations listed by default, worst first (the rest are in the GeoPackage; ``--all`` lists them).
+MAX_LISTED_VIOLATIONS = 20
+
 
 def _fmt(value, digits=2) -> str:
     return "unknown" if value is None or (isinstance(value, float) and math.isnan(value)) else f"{value:.{digits}f}"
 
 
-def summary_text(result, per_span: bool = False) -> str:
-    """Short report: counts, worst clearance per load case, violations, unknowns, caution."""
+def summary_text(result, per_span: bool = False, max_violations: int | None = MAX_LISTED_VIOLATIONS) -> str:
+    """Short report: counts, worst clearance per load case, violations (the worst ``max_violations``; None:
+    all), hotspots, unknowns, warnings, caution, and the file written."""
     layers = result.layers
     conductors, violations = layers["conductors"], layers["clearance_violations"]
     lines = [f"routesag: {len(layers['spans'])} spans in {layers['sections']['section_id'].nunique()} tension sections, "
              f"{conductors['load_case'].nunique()} load cases, {_wires(conductors)}"]
-    if result.path:
-        lines.append(f"written: {result.path}")
     lines.append("worst clearance per load case:")
     for case, group in conductors.groupby("load_case", sort=False):
         row = group.loc[group["min_clearance_m"].idxmin()] if group["min_clearance_m"].notna().any() else None
@@ -29,13 +31,7 @@ def summary_text(result, per_span: bool = False) -> str:
         lines.append(f"  {case:<12} {worst:>8} m  {where}")
     if per_span:
         lines.extend(_span_table(conductors))
-    lines.append(f"violations: {len(violations)}")
-    for _, v in violations.sort_values("deficit_m", ascending=False).iterrows():
-        lines.append(f"  span {v['span_id']}{_wire(v)} [{v['load_case']}] {v.get('category', 'ground')} "
-                     f"at {v['station_m']:.0f} m "
-                     f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {v['clearance_m']:.2f} m < "
-                     f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
-                     f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    lines.extend(_violation_lines(violations, max_violations))
     lines.extend(_hotspot_lines(layers.get("hotspots")))
     lines.extend(_uplift_lines(layers.get("structure_loads")))
     lines.extend(_tension_lines(result))
@@ -43,7 +39,33 @@ def summary_text(result, per_span: bool = False) -> str:
     for message in result.warnings:
         lines.append(f"warning: {message}")
     lines.append(f"CAUTION: {CAUTION}")
+    lines.extend(_written_lines(result))
     return "\n".join(lines)
+
+
+def _violation_lines(violations, limit) -> list[str]:
+    """The worst violations, one line each; a note on how many more there are."""
+    worst = violations.sort_values("deficit_m", ascending=False, kind="stable")
+    shown = worst if limit is None else worst.head(limit)
+    lines = [f"violations: {len(violations)}" + (f" (the {len(shown)} worst; --all lists every one)"
+                                                  if len(shown) < len(worst) else "")]
+    for _, v in shown.iterrows():
+        lines.append(f"  span {v['span_id']}{_wire(v)} [{v['load_case']}] {v.get('category', 'ground')} "
+                     f"at {v['station_m']:.0f} m "
+                     f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {v['clearance_m']:.2f} m < "
+                     f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
+                     f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    return lines
+
+
+def _written_lines(result) -> list[str]:
+    """What was written and how to open it."""
+    if not result.path:
+        return []
+    names = ", ".join(name for name in result.layers)
+    return [f"written: {result.path} (GeoPackage, layers {names})",
+            "  open it in any desktop GIS (add the file as a vector data source), or in Python: "
+            "geopandas.read_file(path, layer=\"clearance_violations\")"]
 
 
 def _hotspot_lines(hotspots, top=10) -> list[str]:
