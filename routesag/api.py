@@ -5,6 +5,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from routesag.errors import OutputError
+from routesag.io.gpkg_version import check_extension
 from routesag.pipeline import RunContext, assemble_chain, run_chain, stages_for
 from routesag.project import Project, load_project
 
@@ -103,6 +104,7 @@ def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=
 def check_destination(project: Project) -> None:
     """Refuse an output over an input file or into a missing folder, before any work is done."""
     out = project.output_path
+    check_extension(out)
     inputs = {p.resolve() for p in project.input_paths().values()}
     if out.resolve() in inputs or any(_is_hard_link(out, p) for p in inputs):
         raise OutputError(f"output {out} is one of the input files; choose another output path")

@@ -18,8 +18,9 @@ def summary_text(result, per_span: bool = False, max_violations: int | None = MA
     all), hotspots, unknowns, warnings, caution, and the file written."""
     layers = result.layers
     conductors, violations = layers["conductors"], layers["clearance_violations"]
-    lines = [f"routesag: {len(layers['spans'])} spans in {layers['sections']['section_id'].nunique()} tension sections, "
-             f"{conductors['load_case'].nunique()} load cases, {_wires(conductors)}"]
+    lines = [f"routesag: {plural(len(layers['spans']), 'span')} in "
+             f"{plural(layers['sections']['section_id'].nunique(), 'tension section')}, "
+             f"{plural(conductors['load_case'].nunique(), 'load case')}, {_wires(conductors)}"]
     lines.append("worst clearance per load case:")
     for case, group in conductors.groupby("load_case", sort=False):
         row = group.loc[group["min_clearance_m"].idxmin()] if group["min_clearance_m"].notna().any() else None
@@ -76,7 +77,7 @@ def _hotspot_lines(hotspots, top=10) -> list[str]:
     for _, h in hotspots.sort_values("rank").head(top).iterrows():
         wire = f" wire {h['wire']}" if "wire" in h and isinstance(h["wire"], str) else ""
         lines.append(f"  #{h['rank']} short by {h['deficit_m']:.2f} m: {h['category']} [{h['load_case']}]{wire} "
-                     f"span {h['span_id']} at {h['station_m']:.0f} m, {h['n_violations']} violation(s) "
+                     f"span {h['span_id']} at {h['station_m']:.0f} m, {plural(int(h['n_violations']), 'violation')} "
                      f"({h['load_cases']}) at x={h.geometry.x:.1f} y={h.geometry.y:.1f}")
     return lines
 
@@ -105,9 +106,13 @@ def _span_table(conductors) -> list[str]:
     return rows
 
 
+def plural(count: int, noun: str) -> str:
+    """``1 span``, ``2 spans``."""
+    return f"{count} {noun}{'' if count == 1 else 's'}"
+
+
 def _wires(conductors) -> str:
-    count = conductors["wire"].nunique() if "wire" in conductors else 1
-    return f"{count} wire{'s' if count != 1 else ''}"
+    return plural(conductors["wire"].nunique() if "wire" in conductors else 1, "wire")
 
 
 def _wire(row) -> str:
