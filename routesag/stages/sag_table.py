@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from routesag.errors import ProjectError
 from routesag.physics.catenary import midspan_sag, support_tensions
 from routesag.physics.loads import bare_weight_n_m
 from routesag.physics.state_change import change_of_state
@@ -41,11 +42,14 @@ class BuildSagTable(Stage):
         return {"sag_table": sag_table(data["project"], data["sections"], data["wire_spans"], data["tensions"])}
 
 
-def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATURES_C) -> pd.DataFrame:
-    """Rows of (section, wire, ruling span or span, temperature); see :data:`COLUMNS`.
+def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATURES_C,
+              conditions=("initial",)) -> pd.DataFrame:
+    """Rows of (section, wire, condition, ruling span or span, temperature); see :data:`COLUMNS`.
 
     The stringing tension of each section and wire is read from ``tensions``
     (``stringing_tension_n``), so a design tension found from the limits is used.
+    ``conditions``: ``initial`` (as strung) and/or ``final`` (after creep: the
+    initial state at the temperature plus the wire's creep allowance).
     """
     stringing_n = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])[
         "stringing_tension_n"]
@@ -54,20 +58,33 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
     for _, section in sections.iterrows():
         for wire in project.line_wires(section["line_id"]):
             key = (section["section_id"], wire.name)
-            frames.append(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c))
+            frames.extend(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
+                                            condition) for condition in conditions)
     if not frames:
         return pd.DataFrame(columns=COLUMNS)
     return pd.concat(frames, ignore_index=True)[COLUMNS]
 
 
-def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c) -> pd.DataFrame:
-    """The sag table of one wire in one tension section (ruling span first, then its spans in order)."""
+def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
+                      condition="initial") -> pd.DataFrame:
+    """The sag table of one wire in one tension section (ruling span first, then its spans in order).
+
+    Raises
+    ------
+    ProjectError
+        ``final`` for a wire without a creep allowance.
+    """
     c, stringing = wire.conductor, wire.stringing
     w_n_m = float(bare_weight_n_m(c.mass_kg_m))
     ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
     temps = np.asarray(temperatures_c, dtype=float)
+    try:
+        states_c = [stringing.state_temperature_c(float(t), condition) for t in temps]
+    except ValueError as exc:
+        raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
+                           "creep_allowance_c in its [stringing] table") from None
     h_n = np.array([change_of_state(ruling_m, stringing_tension_n, w_n_m, stringing.temperature_c, w_n_m, t,
-                                    c.modulus_pa, c.area_m2, c.expansion_per_c) for t in temps])
+                                    c.modulus_pa, c.area_m2, c.expansion_per_c) for t in states_c])
     ruling = {"kind": "ruling", "span_id": None, "from_id": None, "to_id": None}
     span_rows = [{"kind": "span", "span_id": s.span_id, "from_id": s.from_id, "to_id": s.to_id}
                  for s in spans.itertuples()]
@@ -79,7 +96,7 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c)
     frame = pd.DataFrame({
         "section_id": section["section_id"], "wire": wire.name,
         "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
-        "temperature_c": np.broadcast_to(temps, shape).ravel(), "condition": "initial",
+        "temperature_c": np.broadcast_to(temps, shape).ravel(), "condition": condition,
         "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
         "max_tension_n": np.maximum(at_a, at_b).ravel(),
         "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
