@@ -3,7 +3,9 @@ from pathlib import Path
 
 import click
 
-from routesag.cli.options import all_violations_option, fail_on_violation_option, finish, handle_errors, is_quiet
+from routesag.cli.options import (
+    all_violations_option, fail_on_violation_option, finish, handle_errors, is_quiet, units_option,
+)
 
 DEFAULT_OUT = "routesag-demo.gpkg"
 
@@ -27,12 +29,14 @@ def sample_project() -> Path:
               help="Output GeoPackage.")
 @fail_on_violation_option
 @all_violations_option
+@units_option
 @handle_errors
-def demo_command(out, fail_on_violation, all_violations):
+def demo_command(out, fail_on_violation, all_violations, units):
     """Run the bundled sample survey and write routesag-demo.gpkg here."""
     from routesag.api import run
 
     project = sample_project()
     if not is_quiet():
         click.echo(f"sample survey: {project.parent}")
-    finish(run(project, out=Path(out).resolve()), fail_on_violation, per_span=True, all_violations=all_violations)
+    finish(run(project, out=Path(out).resolve()), fail_on_violation, per_span=True, all_violations=all_violations,
+           units=units)
