@@ -104,10 +104,10 @@ def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=
 def check_destination(project: Project) -> None:
     """Refuse an output over an input file or into a missing folder, before any work is done."""
     out = project.output_path
-    check_extension(out)
     inputs = {p.resolve() for p in project.input_paths().values()}
     if out.resolve() in inputs or any(_is_hard_link(out, p) for p in inputs):
         raise OutputError(f"output {out} is one of the input files; choose another output path")
+    check_extension(out)
     if not out.parent.is_dir():
         raise OutputError(f"output folder {out.parent} does not exist")
     if out.is_dir():
