@@ -107,11 +107,11 @@ def check_destination(project: Project) -> None:
     inputs = {p.resolve() for p in project.input_paths().values()}
     if out.resolve() in inputs or any(_is_hard_link(out, p) for p in inputs):
         raise OutputError(f"output {out} is one of the input files; choose another output path")
-    check_extension(out)
     if not out.parent.is_dir():
         raise OutputError(f"output folder {out.parent} does not exist")
     if out.is_dir():
         raise OutputError(f"output {out} is a folder; give a .gpkg file path")
+    check_extension(out)
 
 
 def _is_hard_link(a: Path, b: Path) -> bool:
