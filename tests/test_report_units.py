@@ -13,7 +13,8 @@ PAIR = re.compile(r"(-?\d+\.\d+) m \((-?\d+\.\d+) ft\)")
 
 
 def test_imperial_summary_shows_feet_beside_metres(survey):
-    survey.write_text(survey.read_text().replace("ground_m = 7.5", "ground_m = 30.0") + '\n[report]\nunits = "imperial"\n')
+    text = survey.read_text().replace("ground_m = 7.5", "ground_m = 30.0")
+    survey.write_text(text + '\n[report]\nunits = "imperial"\n')
     result = routesag.run(survey)
     text = summary_text(result)
     pairs = PAIR.findall(text)

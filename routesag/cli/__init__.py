@@ -43,7 +43,8 @@ class PluginGroup(click.Group):
 
 @click.group(cls=PluginGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="routesag")
-@click.option("-v", "--verbose", count=True, help="routesag's stage log; -vv: debug, other libraries too. Also after the command.")
+@click.option("-v", "--verbose", count=True,
+              help="routesag's stage log; -vv: debug, other libraries too. Also after the command.")
 @click.option("-q", "--quiet", is_flag=True, help="Only errors. Also after the command.")
 @click.pass_context
 def main(ctx, verbose, quiet):

@@ -99,7 +99,8 @@ def terminal_text(table: pd.DataFrame, units: str, width: int | None = None) -> 
         rows = list(dict.fromkeys(zip(group["kind"], group["span_id"].fillna("ruling"))))
         label_width = max(12, *(len(str(s)) for _, s in rows)) + 2
         per_block = max(1, (width - label_width - COLUMN_WIDTH) // COLUMN_WIDTH)
-        head = (f"section {section}, wire {wire}, {condition} ({'as strung' if condition == 'initial' else 'after creep'}): "
+        state = "as strung" if condition == "initial" else "after creep"
+        head = (f"section {section}, wire {wire}, {condition} ({state}): "
                 f"sag [{length}] at conductor temperature [deg{degrees}], horizontal tension H [{force}]")
         lines = [head]
         for first in range(0, len(temps), per_block):
