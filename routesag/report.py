@@ -6,6 +6,7 @@ import math
 
 from routesag.stages.output import CAUTION
 from routesag.units import c_to_f, m_to_ft, n_to_lbf
+from routesag.wording import plural
 
 #: Whether the summary being written shows imperial values beside SI ([report] units = "imperial").
 _IMPERIAL = contextvars.ContextVar("imperial", default=False)
@@ -154,11 +155,6 @@ def _span_table(conductors) -> list[str]:
     for span_id, row in table.iterrows():
         rows.append(f"  {span_id:<16}" + "".join(f"{cell(row.get(c)):>{width}}" for c in cases))
     return rows
-
-
-def plural(count: int, noun: str) -> str:
-    """``1 span``, ``2 spans``."""
-    return f"{count} {noun}{'' if count == 1 else 's'}"
 
 
 def _wires(conductors) -> str:

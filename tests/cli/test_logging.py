@@ -102,8 +102,8 @@ def test_quiet_after_the_command_and_for_demo(runner, slack, tmp_path):
 def test_each_warning_printed_once(runner, slack):
     result = runner.invoke(main, ["run", str(slack)])
     assert result.exit_code == 0, result.output
-    assert result.output.count("sag more than 5 %") == 1
-    assert "warning: 1 span(s) sag more than 5 %" in result.stdout
+    assert result.output.count("more than 5 % of") == 1
+    assert "warning: 1 span sags more than 5 % of its length" in result.stdout
 
 
 def test_summary_ends_with_what_was_written(runner, slack):
