@@ -5,6 +5,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from routesag.errors import OutputError
+from routesag.io.gpkg_version import check_extension
 from routesag.pipeline import RunContext, assemble_chain, run_chain, stages_for
 from routesag.project import Project, load_project
 
@@ -110,6 +111,7 @@ def check_destination(project: Project) -> None:
         raise OutputError(f"output folder {out.parent} does not exist")
     if out.is_dir():
         raise OutputError(f"output {out} is a folder; give a .gpkg file path")
+    check_extension(out)
 
 
 def _is_hard_link(a: Path, b: Path) -> bool:

@@ -86,7 +86,7 @@ class RunContext:
     def warn(self, message: str) -> None:
         if message in self.warnings:  # sections repeat line-wide warnings
             return
-        log.warning(message)
+        log.warning(message, extra={"run_warning": True})  # the CLI summary lists it: see cli/logs.py
         self.warnings.append(message)
 
     def absorb(self, other: "RunContext") -> None:

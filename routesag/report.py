@@ -1,9 +1,18 @@
 """Plain-text run summary for the terminal."""
 from __future__ import annotations
 
+import contextvars
 import math
 
 from routesag.stages.output import CAUTION
+from routesag.units import c_to_f, m_to_ft, n_to_lbf
+from routesag.wording import plural
+
+#: Whether the summary being written shows imperial values beside SI ([report] units = "imperial").
+_IMPERIAL = contextvars.ContextVar("imperial", default=False)
+
+#: Violations listed by default, worst first (the rest are in the GeoPackage; ``--all`` lists them).
+MAX_LISTED_VIOLATIONS = 20
 
 #: A section wire whose fitted tension differs from the design by more than this is listed [%].
 AS_FOUND_LISTED_PERCENT = 2.0
@@ -13,32 +22,56 @@ def _fmt(value, digits=2) -> str:
     return "unknown" if value is None or (isinstance(value, float) and math.isnan(value)) else f"{value:.{digits}f}"
 
 
-def summary_text(result, per_span: bool = False) -> str:
-    """Short report: counts, worst clearance per load case, violations, unknowns, caution."""
+def _m(value, digits=2) -> str:
+    """A length in metres, with feet beside it in an imperial summary."""
+    text = f"{value:.{digits}f} m"
+    return text + f" ({float(m_to_ft(value)):.{max(digits - 1, 0)}f} ft)" if _IMPERIAL.get() else text
+
+
+def _kn(value_n) -> str:
+    """A force in kN, with pounds-force beside it in an imperial summary."""
+    text = f"{value_n / 1e3:.2f} kN"
+    return text + f" ({float(n_to_lbf(value_n)):.0f} lbf)" if _IMPERIAL.get() else text
+
+
+def _degc(value_c) -> str:
+    text = f"{value_c:g} C"
+    return text + f" ({float(c_to_f(value_c)):.0f} F)" if _IMPERIAL.get() else text
+
+
+def summary_text(result, per_span: bool = False, max_violations: int | None = MAX_LISTED_VIOLATIONS,
+                 units: str | None = None) -> str:
+    """Short report: counts, worst clearance per load case, violations (the worst ``max_violations``; None:
+    all), hotspots, unknowns, warnings, caution, and the file written.
+
+    ``units`` "imperial" adds feet, pounds-force and degrees F beside the SI values (default: the project's
+    ``[report] units``)."""
+    units = units or result.project.settings.get("report", {}).get("units", "si")
+    token = _IMPERIAL.set(units == "imperial")
+    try:
+        return _summary(result, per_span, max_violations)
+    finally:
+        _IMPERIAL.reset(token)
+
+
+def _summary(result, per_span, max_violations) -> str:
     layers = result.layers
     conductors, violations = layers["conductors"], layers["clearance_violations"]
-    lines = [f"routesag: {len(layers['spans'])} spans in {layers['sections']['section_id'].nunique()} tension sections, "
-             f"{conductors['load_case'].nunique()} load cases, {_wires(conductors)}"]
-    if result.path:
-        lines.append(f"written: {result.path}")
+    lines = [f"routesag: {plural(len(layers['spans']), 'span')} in "
+             f"{plural(layers['sections']['section_id'].nunique(), 'tension section')}, "
+             f"{plural(conductors['load_case'].nunique(), 'load case')}, {_wires(conductors)}"]
     lines.append("worst clearance per load case:")
     for case, group in conductors.groupby("load_case", sort=False):
         row = group.loc[group["min_clearance_m"].idxmin()] if group["min_clearance_m"].notna().any() else None
         required = "not checked" if (group["status"] == "unchecked").all() else (
-            f"required {row['required_m']:.2f} m" if row is not None else "")
+            f"required {_m(row['required_m'])}" if row is not None else "")
         where = (f"span {row['span_id']}{_wire(row)} at {row['min_clearance_station_m']:.0f} m "
                  f"({required})") if row is not None else "no terrain"
-        worst = _fmt(row["min_clearance_m"]) if row is not None else "unknown"
-        lines.append(f"  {case:<12} {worst:>8} m  {where}")
+        worst = _m(row["min_clearance_m"]) if row is not None and math.isfinite(row["min_clearance_m"]) else "unknown"
+        lines.append(f"  {case:<12} {worst:>{18 if _IMPERIAL.get() else 10}}  {where}{_case_temperature(result, case)}")
     if per_span:
         lines.extend(_span_table(conductors))
-    lines.append(f"violations: {len(violations)}")
-    for _, v in violations.sort_values("deficit_m", ascending=False).iterrows():
-        lines.append(f"  span {v['span_id']}{_wire(v)} [{v['load_case']}] {v.get('category', 'ground')} "
-                     f"at {v['station_m']:.0f} m "
-                     f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {v['clearance_m']:.2f} m < "
-                     f"{v['required_m']:.2f} m, short by {v['deficit_m']:.2f} m "
-                     f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    lines.extend(_violation_lines(violations, max_violations))
     lines.extend(_hotspot_lines(layers.get("hotspots")))
     lines.extend(_uplift_lines(layers.get("structure_loads")))
     lines.extend(_tension_lines(result))
@@ -47,7 +80,41 @@ def summary_text(result, per_span: bool = False) -> str:
     for message in result.warnings:
         lines.append(f"warning: {message}")
     lines.append(f"CAUTION: {CAUTION}")
+    lines.extend(_written_lines(result))
     return "\n".join(lines)
+
+
+def _violation_lines(violations, limit) -> list[str]:
+    """The worst violations, one line each; a note on how many more there are."""
+    worst = violations.sort_values("deficit_m", ascending=False, kind="stable")
+    shown = worst if limit is None else worst.head(limit)
+    lines = [f"violations: {len(violations)}" + (f" (the {len(shown)} worst; --all lists every one)"
+                                                  if len(shown) < len(worst) else "")]
+    for _, v in shown.iterrows():
+        lines.append(f"  span {v['span_id']}{_wire(v)} [{v['load_case']}] {v.get('category', 'ground')} "
+                     f"at {v['station_m']:.0f} m "
+                     f"({v['start_m']:.0f}-{v['end_m']:.0f} m): clearance {_m(v['clearance_m'])} < "
+                     f"{_m(v['required_m'])}, short by {_m(v['deficit_m'])} "
+                     f"at x={v.geometry.x:.1f} y={v.geometry.y:.1f}")
+    return lines
+
+
+def _written_lines(result) -> list[str]:
+    """What was written and how to open it."""
+    if not result.path:
+        return []
+    names = ", ".join(name for name in result.layers)
+    return [f"written: {result.path} (GeoPackage, layers {names})",
+            "  open it in any desktop GIS (add the file as a vector data source), or in Python: "
+            "geopandas.read_file(path, layer=\"clearance_violations\")"]
+
+
+def _case_temperature(result, case) -> str:
+    """`` (90 C)``: the load case's conductor temperature, shown in an imperial summary."""
+    if not _IMPERIAL.get():
+        return ""
+    temps = {c.name: c.temperature_c for c in result.project.load_cases}
+    return f", conductor {_degc(temps[case])}" if case in temps else ""
 
 
 def _hotspot_lines(hotspots, top=10) -> list[str]:
@@ -57,8 +124,8 @@ def _hotspot_lines(hotspots, top=10) -> list[str]:
     lines = [f"hotspots: {len(hotspots)} (violations merged within the hotspot distance; top {top}, worst first)"]
     for _, h in hotspots.sort_values("rank").head(top).iterrows():
         wire = f" wire {h['wire']}" if "wire" in h and isinstance(h["wire"], str) else ""
-        lines.append(f"  #{h['rank']} short by {h['deficit_m']:.2f} m: {h['category']} [{h['load_case']}]{wire} "
-                     f"span {h['span_id']} at {h['station_m']:.0f} m, {h['n_violations']} violation(s) "
+        lines.append(f"  #{h['rank']} short by {_m(h['deficit_m'])}: {h['category']} [{h['load_case']}]{wire} "
+                     f"span {h['span_id']} at {h['station_m']:.0f} m, {plural(int(h['n_violations']), 'violation')} "
                      f"({h['load_cases']}) at x={h.geometry.x:.1f} y={h.geometry.y:.1f}")
     return lines
 
@@ -73,23 +140,29 @@ def _unknown_lines(stretches, conductors) -> list[str]:
     if not total > 0:
         return []
     where = f" in {count} stretches" if count is not None else ""
-    return [f"UNKNOWN: {total:.0f} m of conductor{where} over missing {why} data (not checked, not clear)"]
+    return [f"UNKNOWN: {_m(total, 0)} of conductor{where} over missing {why} data (not checked, not clear)"]
 
 
 def _span_table(conductors) -> list[str]:
     cases = list(dict.fromkeys(conductors["load_case"]))
     table = conductors.pivot_table(index="span_id", columns="load_case", values="min_clearance_m",
                                    aggfunc="min", sort=False)
-    header = f"  {'span':<16}" + "".join(f"{c:>10}" for c in cases)
-    rows = ["minimum clearance [m] per span and load case:", header]
+    imperial = _IMPERIAL.get()
+    width = 16 if imperial else 10
+    header = f"  {'span':<16}" + "".join(f"{c:>{width}}" for c in cases)
+    rows = [f"minimum clearance [{'m / ft' if imperial else 'm'}] per span and load case:", header]
+
+    def cell(value):
+        text = _fmt(value)
+        return f"{text} / {float(m_to_ft(value)):.1f}" if imperial and text != "unknown" else text
+
     for span_id, row in table.iterrows():
-        rows.append(f"  {span_id:<16}" + "".join(f"{_fmt(row.get(c)):>10}" for c in cases))
+        rows.append(f"  {span_id:<16}" + "".join(f"{cell(row.get(c)):>{width}}" for c in cases))
     return rows
 
 
 def _wires(conductors) -> str:
-    count = conductors["wire"].nunique() if "wire" in conductors else 1
-    return f"{count} wire{'s' if count != 1 else ''}"
+    return plural(conductors["wire"].nunique() if "wire" in conductors else 1, "wire")
 
 
 def _wire(row) -> str:
@@ -105,7 +178,7 @@ def _uplift_lines(loads) -> list[str]:
     for _, u in up.iterrows():
         direction = "up" if u["vertical_n"] < 0 else "down, but the string is lifted"
         lines.append(f"  structure {u['structure_id']}{_wire(u)} [{u['load_case']}]: net vertical load "
-                     f"{abs(u['vertical_n']) / 1e3:.2f} kN ({direction}), weight span {u['weight_span_m']:.0f} m")
+                     f"{_kn(abs(u['vertical_n']))} ({direction}), weight span {u['weight_span_m']:.0f} m")
     return lines
 
 
@@ -120,7 +193,7 @@ def _tension_lines(result) -> list[str]:
         lines.append("design stringing tension per tension section (largest that meets every limit):")
         for _, row in sections.iterrows():
             label = row["section_id"] + (f" {row['wire']}" if "wire" in row else "")
-            lines.append(f"  {label:<12} {row['design_tension_n'] / 1e3:8.2f} kN "
+            lines.append(f"  {label:<12} {_kn(row['design_tension_n']):>10} "
                          f"({row['stringing_percent_rts']:.1f} % RTS), set by {row['governing_limit']} "
                          f"in {row['governing_case']!r}")
     exceeded = result.layers["tension_exceedances"]

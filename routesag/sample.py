@@ -105,12 +105,12 @@ terrain = "terrain.tif"
 [line]
 attach_height_m = 22.0
 
-[conductor]
+[conductor]                        # the catalog's Drake (routesag conductors drake), written out
 diameter_mm = 28.14
 area_mm2 = 468.6
 mass_kg_m = 1.628
 rated_strength_kn = 140.1
-modulus_gpa = 70.0
+modulus_gpa = 74.0
 expansion_per_c = 18.9e-6
 
 [stringing]

@@ -160,10 +160,25 @@ def test_project_states_the_category_table(survey):
 
 
 def test_project_conductor_is_drake(survey):
-    # Drake ACSR 795 kcmil 26/7: FIELD.md section 5 (ASTM B232 via CPUC GO 95 Table 23).
+    # Drake ACSR 795 kcmil 26/7: FIELD.md section 5 (ASTM B232 via CPUC GO 95 Table 23); ACSR 26/7 final
+    # modulus 74 GPa from FIELD.md section 3.
     assert survey["project"]["conductor"] == {
         "diameter_mm": 28.14, "area_mm2": 468.6, "mass_kg_m": 1.628,
-        "rated_strength_kn": 140.1, "modulus_gpa": 70.0, "expansion_per_c": 18.9e-6}
+        "rated_strength_kn": 140.1, "modulus_gpa": 74.0, "expansion_per_c": 18.9e-6}
+
+
+def test_project_drake_is_the_catalogs():
+    """One Drake everywhere: the sample's and the README example's are the catalog entry."""
+    from routesag.catalog import find_conductor
+
+    drake = find_conductor("Drake")
+    sample_drake = tomllib.loads(sample.PROJECT_TOML)["conductor"]
+    readme = (REPO_ROOT / "README.md").read_text(encoding="utf-8")
+    examples = [block.split("```", 1)[0] for block in readme.split("```toml")[1:]]
+    example = tomllib.loads(next(b for b in examples if "[conductor]" in b))["conductor"]
+    for table in (sample_drake, example):
+        assert table["modulus_gpa"] == drake.modulus_gpa
+        assert table["area_mm2"] == drake.area_mm2 and table["mass_kg_m"] == drake.mass_kg_m
 
 
 def test_project_has_three_phases_and_an_earth_wire(survey):
@@ -453,3 +468,20 @@ def test_road_rule_not_ground_rule_fails_on_the_knoll_flank(survey, terrain, cro
         over_road = (wire_z - below)[inside].min()
         assert (over_road < required) == fails, case
         assert over_road > GROUND_CLEARANCE_M  # the ground rule alone would pass here
+
+
+# ---------------------------------------------------------------- the README's figures
+
+def test_readme_figures_are_those_of_a_fresh_run(survey):
+    """The generated blocks of sample_survey/README.md match a run of the sample now (no drift)."""
+    from routesag.sample_figures import blocks, blocks_in, run_sample
+
+    committed = REPO_ROOT / "sample_survey" / "README.md"
+    if not committed.exists():
+        pytest.skip("no committed sample_survey/ in this tree")
+    stored = blocks_in(committed.read_text(encoding="utf-8"))
+    fresh = blocks(run_sample(survey["project_path"]))
+    assert set(stored) == {"knoll", "phases", "places", "hotspots"}
+    assert stored == fresh
+    # and the story they tell: the hot case fails at the knoll, the cold case clears
+    assert "(fails 7.5)" in fresh["knoll"].splitlines()[2] and "fails" not in fresh["knoll"].splitlines()[3]

@@ -179,10 +179,10 @@ CASES = [
                      r"map it with \[inputs.fields\] structure_id = 'structureid'\)",)),
     Case("duplicate structure_id in a line",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P1"], "seq": [1, 2, 3]}),
-         DataError, (r"line line: structure_id 'P1' appears more than once",)),
+         DataError, (r"the line: structure_id 'P1' appears more than once",)),
     Case("duplicate seq",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 2]}),
-         DataError, (r"line line: seq 2 is used by structure P2 \(row 2\), structure P3 \(row 3\)",)),
+         DataError, (r"the line: seq 2 is used by structure P2 \(row 2\), structure P3 \(row 3\)",)),
     Case("non-numeric seq",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": ["1", "two", "3"]}),
          DataError, (r"structure P2 \(row 2\): field 'seq' = 'two' is not a number",)),
@@ -193,7 +193,7 @@ CASES = [
     Case("two structures at the same spot",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3]},
                                      shapely.points(np.asarray(line_xy([0.0, 0.0, 300.0])))),
-         DataError, (r"line line: structures P1 and P2 stand at the same spot \(0\.00 m apart\): "
+         DataError, (r"the line: structures P1 and P2 stand at the same spot \(0\.00 m apart\): "
                      r"zero-length span",)),
     Case("negative attach height", heights(-3.0), DataError,
          (r"structure P2 \(row 2\): field 'attach_height_m' = -3 m; expected 0 < height <= 200 m",)),

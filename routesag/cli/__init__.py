@@ -6,14 +6,16 @@ replaced by a placeholder that reports the error only when it is used.
 """
 from __future__ import annotations
 
-import logging
 from importlib.metadata import entry_points
 
 import click
 
 from routesag import __version__
+from routesag.cli import logs
 
 COMMAND_GROUP = "routesag.commands"
+#: Commands that end with a run summary listing the warnings.
+SUMMARY_COMMANDS = ("run", "demo")
 
 
 def _broken_command(name: str, error: BaseException) -> click.Command:
@@ -35,11 +37,15 @@ class PluginGroup(click.Group):
                 command = _broken_command(ep.name, exc)
             self.add_command(command, ep.name)
 
+    def parse_args(self, ctx, args):
+        return super().parse_args(ctx, logs.hoist_global_flags(args))
+
 
 @click.group(cls=PluginGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="routesag")
-@click.option("-v", "--verbose", count=True, help="More output (repeat for debug).")
-@click.option("-q", "--quiet", is_flag=True, help="Only errors.")
+@click.option("-v", "--verbose", count=True,
+              help="routesag's stage log; -vv: debug, other libraries too. Also after the command.")
+@click.option("-q", "--quiet", is_flag=True, help="Only errors. Also after the command.")
 @click.pass_context
 def main(ctx, verbose, quiet):
     """Conductor sag and ground-clearance screening for overhead lines.
@@ -47,6 +53,5 @@ def main(ctx, verbose, quiet):
     Results are an engineering screening aid: loads and required clearances come
     from the governing code and are confirmed by a licensed engineer.
     """
-    level = logging.ERROR if quiet else (logging.WARNING, logging.INFO, logging.DEBUG)[min(verbose, 2)]
-    logging.basicConfig(level=level, format="%(levelname)s: %(message)s")
+    logs.configure(verbose, quiet, summary=ctx.invoked_subcommand in SUMMARY_COMMANDS)
     ctx.obj = {"verbose": verbose, "quiet": quiet}

@@ -3,7 +3,9 @@ from pathlib import Path
 
 import click
 
-from routesag.cli.options import fail_on_violation_option, finish, handle_errors
+from routesag.cli.options import (
+    all_violations_option, fail_on_violation_option, finish, handle_errors, is_quiet, units_option,
+)
 
 DEFAULT_OUT = "routesag-demo.gpkg"
 
@@ -26,11 +28,15 @@ def sample_project() -> Path:
 @click.option("-o", "--out", type=click.Path(dir_okay=False), default=DEFAULT_OUT, show_default=True,
               help="Output GeoPackage.")
 @fail_on_violation_option
+@all_violations_option
+@units_option
 @handle_errors
-def demo_command(out, fail_on_violation):
+def demo_command(out, fail_on_violation, all_violations, units):
     """Run the bundled sample survey and write routesag-demo.gpkg here."""
     from routesag.api import run
 
     project = sample_project()
-    click.echo(f"sample survey: {project.parent}")
-    finish(run(project, out=Path(out).resolve()), fail_on_violation, per_span=True)
+    if not is_quiet():
+        click.echo(f"sample survey: {project.parent}")
+    finish(run(project, out=Path(out).resolve()), fail_on_violation, per_span=True, all_violations=all_violations,
+           units=units)

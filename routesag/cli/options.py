@@ -18,6 +18,11 @@ MESSAGE_LINE_CHARS = 1000
 
 out_option = click.option("-o", "--out", type=click.Path(dir_okay=False), default=None,
                           help="Output GeoPackage (overrides [output] path).")
+all_violations_option = click.option("--all", "all_violations", is_flag=True,
+                                     help="List every violation in the summary (default: the 20 worst).")
+units_option = click.option("--units", type=click.Choice(["si", "imperial"]), default=None,
+                            help="imperial: feet, pounds-force and degrees F beside SI in the summary "
+                                 "(default [report] units; files stay SI).")
 fail_on_violation_option = click.option("--fail-on-violation", is_flag=True,
                                         help="Exit with code 3 when any clearance violation is found.")
 
@@ -57,11 +62,18 @@ def handle_errors(func):
     return wrapper
 
 
-def finish(result, fail_on_violation: bool, per_span: bool = False) -> None:
-    """Print the summary (unless quiet) and set the exit code."""
-    from routesag.report import summary_text
+def is_quiet() -> bool:
+    """Whether -q was given (before or after the command)."""
+    return bool((click.get_current_context().find_root().obj or {}).get("quiet"))
 
-    if not click.get_current_context().find_root().obj.get("quiet"):
-        click.echo(summary_text(result, per_span=per_span))
+
+def finish(result, fail_on_violation: bool, per_span: bool = False, all_violations: bool = False,
+           units: str | None = None) -> None:
+    """Print the summary (unless quiet) and set the exit code."""
+    from routesag.report import MAX_LISTED_VIOLATIONS, summary_text
+
+    if not is_quiet():
+        click.echo(summary_text(result, per_span=per_span,
+                                max_violations=None if all_violations else MAX_LISTED_VIOLATIONS, units=units))
     if fail_on_violation and len(result.layers["clearance_violations"]):
         raise click.exceptions.Exit(EXIT_VIOLATION)

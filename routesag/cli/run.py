@@ -1,7 +1,9 @@
 """``routesag run PROJECT.toml``."""
 import click
 
-from routesag.cli.options import fail_on_violation_option, finish, handle_errors, out_option
+from routesag.cli.options import (
+    all_violations_option, fail_on_violation_option, finish, handle_errors, out_option, units_option,
+)
 
 
 @click.command("run")
@@ -9,9 +11,11 @@ from routesag.cli.options import fail_on_violation_option, finish, handle_errors
 @out_option
 @fail_on_violation_option
 @click.option("--spans", "per_span", is_flag=True, help="Also print the worst clearance of every span.")
+@all_violations_option
+@units_option
 @handle_errors
-def run_command(project, out, fail_on_violation, per_span):
+def run_command(project, out, fail_on_violation, per_span, all_violations, units):
     """Compute conductors and clearances for PROJECT (a TOML project file)."""
     from routesag.api import run
 
-    finish(run(project, out=out), fail_on_violation, per_span)
+    finish(run(project, out=out), fail_on_violation, per_span, all_violations, units)

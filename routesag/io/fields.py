@@ -23,7 +23,7 @@ COORDINATE_PAIRS = (("x", "y"), ("easting", "northing"), ("east", "north"),
 #: Pairs that hold degrees: a CSV with them and no [inputs] crs is taken as WGS 84 lat/lon.
 DEGREE_PAIRS = {("lon", "lat"), ("long", "lat"), ("longitude", "latitude"), ("lng", "lat")}
 SEPARATORS = ",;\t|"
-_DECIMAL_COMMA = re.compile(r"^\s*[-+]?\d+,\d+\s*$")
+_DECIMAL_COMMA = re.compile(r"^\s*[-+]?\d+(,\d+)?\s*$")
 
 
 def _norm(name) -> str:
@@ -104,7 +104,19 @@ def _close(name: str, columns) -> str:
 
 
 def sniff_separator(text: str) -> str:
-    """The CSV field separator among , ; tab | (comma when the sample does not tell)."""
+    """The CSV field separator among , ; tab | (comma when the sample does not tell).
+
+    A separator must split the header and every sampled row into the same
+    number of fields; this keeps decimal commas (``500000,5``) in a
+    semicolon file from passing for separators.
+    """
+    lines = [line for line in text.splitlines()[:50] if line.strip()]
+    if len(lines) > 1 and not text.endswith("\n"):
+        lines = lines[:-1]  # the sample may cut the last line
+    steady = [sep for sep in SEPARATORS
+              if lines and lines[0].count(sep) > 0 and len({line.count(sep) for line in lines}) == 1]
+    if steady:
+        return max(steady, key=lambda sep: lines[0].count(sep))
     try:
         return csv.Sniffer().sniff(text, delimiters=SEPARATORS).delimiter
     except csv.Error:
@@ -112,12 +124,14 @@ def sniff_separator(text: str) -> str:
 
 
 def decimal_commas_to_numbers(frame: pd.DataFrame) -> pd.DataFrame:
-    """Columns whose every value is a number written with a decimal comma (``12,5``) become numbers."""
+    """Text columns whose every value is a number, some written with a decimal comma (``12,5``), become numbers."""
     out = frame.copy()
     for column in out.columns:
-        values = out[column].dropna()
-        if out[column].dtype == object and len(values) and values.astype(str).str.match(_DECIMAL_COMMA).all():
-            out[column] = pd.to_numeric(out[column].astype("string").str.replace(",", ".", regex=False),
+        if pd.api.types.is_numeric_dtype(out[column]):
+            continue
+        values = out[column].dropna().astype(str)
+        if len(values) and values.str.match(_DECIMAL_COMMA).all() and values.str.contains(",").any():
+            out[column] = pd.to_numeric(values.str.replace(",", ".", regex=False).reindex(out.index),
                                         errors="coerce")
     return out
 

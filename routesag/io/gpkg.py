@@ -15,12 +15,13 @@ import pyogrio
 import pyogrio.errors
 
 from routesag.errors import DataError, OutputError
+from routesag.io.gpkg_version import DEFAULT_VERSION, stamp_version
 
 #: Files SQLite may create beside a GeoPackage while it is being written.
 _SQLITE_SIDECARS = ("-journal", "-wal", "-shm")
 
 
-def write_layers(path, layers, *, protect=()):
+def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION):
     """Write several layers to one GeoPackage atomically.
 
     Parameters
@@ -37,6 +38,8 @@ def write_layers(path, layers, *, protect=()):
         labels a GeoDataFrame that has none.
     protect : iterable of path-like
         Files that must never be overwritten (the run's inputs).
+    version : str
+        GeoPackage version the file declares (see :mod:`routesag.io.gpkg_version`).
 
     Raises
     ------
@@ -66,6 +69,7 @@ def write_layers(path, layers, *, protect=()):
     try:
         for name, frame, geometry_type in prepared:
             _write_one(temporary, name, frame, geometry_type)
+        stamp_version(temporary, version)
         _fsync(temporary)
         os.replace(temporary, destination)
     except BaseException:

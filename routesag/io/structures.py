@@ -22,6 +22,7 @@ from routesag.io.fields import (
     apply_field_map, coordinate_columns, decimal_commas_to_numbers, hint_for_missing, sniff_separator,
 )
 from routesag.project import MAX_ATTACH_HEIGHT_M
+from routesag.project.model import DEFAULT_LINE_ID, line_label
 
 REQUIRED_FIELDS = ("structure_id", "seq")
 OPTIONAL_FIELDS = ("line_id", "kind", "attach_height_m", "ground_z_m", "insulator_m")
@@ -36,7 +37,6 @@ HEIGHT_FACTORS = {"m": 1.0, "ft": 0.3048, "ftUS": 1200.0 / 3937.0}
 #: Heights all above this, in a feet CRS with no height_units, are probably feet [m] (common practice:
 #: distribution and transmission attachment heights are mostly 8-30 m, 25-100 ft).
 FEET_SUSPECT_MIN = 30.0
-DEFAULT_LINE_ID = "line"
 
 
 def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=None) -> gpd.GeoDataFrame:
@@ -300,13 +300,13 @@ def _check_duplicates(out, labels, where, problems) -> None:
     for line_id, group in out.groupby("line_id", sort=False):
         ids = group["structure_id"].dropna()
         for sid in sorted(set(ids[ids.duplicated()])):
-            problems.append(f"{where}: line {line_id}: structure_id {sid!r} appears more than once")
+            problems.append(f"{where}: {line_label(line_id)}: structure_id {sid!r} appears more than once")
         seq = group["seq"].dropna()
         for value in sorted(set(seq[seq.duplicated()])):
             rows = [labels[i] for i in group.index[group["seq"] == value]]
-            problems.append(f"{where}: line {line_id}: seq {value:g} is used by {', '.join(rows)}")
+            problems.append(f"{where}: {line_label(line_id)}: seq {value:g} is used by {', '.join(rows)}")
         if len(group) < 2:
-            problems.append(f"{where}: line {line_id} has only one structure ({labels[group.index[0]]}); "
+            problems.append(f"{where}: {line_label(line_id)} has only one structure ({labels[group.index[0]]}); "
                             "a line needs at least two")
 
 

@@ -436,15 +436,28 @@ def _open_single_band(path, assigned_crs=None):
 
 
 def _parse_crs(path, ds, assigned=None):
-    """The raster CRS as :class:`pyproj.CRS` (``assigned`` wins) and a note; DataError when PROJ cannot read it."""
+    """The raster CRS as :class:`pyproj.CRS` and a note; DataError when PROJ cannot read it.
+
+    ``assigned`` ([inputs] terrain_crs) only labels a raster that has no CRS:
+    one that contradicts the file's own CRS is refused, since either label
+    may be the wrong one and a wrong label moves every span off its ground.
+    """
     try:
         own = ds.crs.to_wkt() if ds.crs is not None else ""
-        if assigned:
-            said = f" (the file says {pyproj.CRS.from_wkt(own).to_string()})" if own else " (the file has none)"
-            return pyproj.CRS.from_user_input(assigned), f"terrain CRS {assigned} from [inputs] terrain_crs{said}"
-        return pyproj.CRS.from_wkt(own), ""
+        if not assigned:
+            return pyproj.CRS.from_wkt(own), ""
+        given = pyproj.CRS.from_user_input(assigned)
+        if not own:
+            return given, f"terrain CRS {assigned} from [inputs] terrain_crs (the file has none)"
+        file_crs = pyproj.CRS.from_wkt(own)
     except (pyproj.exceptions.CRSError, rasterio.errors.RasterioError) as exc:
         raise DataError(f"terrain {path} has a CRS that cannot be understood: {_first_line(exc)}") from None
+    if not (file_crs.equals(given, ignore_axis_order=True)
+            or _horizontal_part(file_crs).equals(given, ignore_axis_order=True)):
+        raise DataError(f"terrain {path} has its own CRS {file_crs.to_string()}, but [inputs] terrain_crs = "
+                        f"{assigned!r} says otherwise; terrain_crs only labels a raster without a CRS: remove it, "
+                        "or fix the file's CRS if that is the wrong one")
+    return file_crs, f"terrain CRS {file_crs.to_string()} from the file ([inputs] terrain_crs agrees)"
 
 
 def _first_line(exc):

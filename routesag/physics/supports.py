@@ -158,9 +158,11 @@ def line_tension_load_n(back_tension_n, back_dir, ahead_tension_n, ahead_dir, al
     ----------
     .. [1] ASCE Manual 74 (line-angle load ``2 T sin(theta/2)``).
     """
-    force = (np.asarray(ahead_tension_n, dtype=float)[:, None] * np.asarray(ahead_dir, dtype=float)
-             - np.asarray(back_tension_n, dtype=float)[:, None] * np.asarray(back_dir, dtype=float))
-    return (force * along).sum(axis=1), (force * across).sum(axis=1)
+    ahead_n, back_n = np.asarray(ahead_tension_n, dtype=float), np.asarray(back_tension_n, dtype=float)
+    force = ahead_n[:, None] * np.asarray(ahead_dir, dtype=float) - back_n[:, None] * np.asarray(back_dir, dtype=float)
+    # Equal tensions on both sides of a bisector axis cancel along it exactly; the sum leaves rounding (1e-12 N).
+    balanced = (ahead_n == back_n) & (ahead_n > 0)
+    return np.where(balanced, 0.0, (force * along).sum(axis=1)), (force * across).sum(axis=1)
 
 
 def insulator_swing_rad(transverse_n, vertical_n, string_wind_n=0.0, string_weight_n=0.0, tolerance_n=0.0):

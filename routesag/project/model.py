@@ -2,6 +2,21 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+
+#: line_id of structures from a file without that field.
+DEFAULT_LINE_ID = "line"
+#: Name of the one wire of a project without [[wires]] whose structures have no line_id.
+DEFAULT_WIRE = "conductor"
+
+
+def line_prefix(line_id) -> str:
+    """Prefix of span and section ids: ``"A:"`` for line A, nothing for a file without line_id."""
+    return "" if str(line_id) == DEFAULT_LINE_ID else f"{line_id}:"
+
+
+def line_label(line_id) -> str:
+    """A line in a message: ``line A``, or ``the line`` for a file without line_id."""
+    return "the line" if str(line_id) == DEFAULT_LINE_ID else f"line {line_id}"
 from pathlib import Path
 
 from routesag.errors import ProjectError
@@ -256,10 +271,12 @@ class Project:
         return self.path.parent
 
     def line_wires(self, line_id) -> list[Wire]:
-        """The wires of a line: the ``[[wires]]`` entries, or one wire named after the line at offset 0."""
+        """The wires of a line: the ``[[wires]]`` entries, or one wire at offset 0 named after the line
+        (``conductor`` for a structures file without line_id)."""
         if self.wires:
             return list(self.wires)
-        return [Wire(name=str(line_id), conductor=self.conductor, stringing=self.stringing)]
+        name = DEFAULT_WIRE if str(line_id) == DEFAULT_LINE_ID else str(line_id)
+        return [Wire(name=name, conductor=self.conductor, stringing=self.stringing)]
 
     def input_paths(self) -> dict[str, Path]:
         """Every input file by role, for provenance."""

@@ -265,6 +265,12 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "output": {
         "path": Key(str, "results.gpkg", doc="GeoPackage to write"),
+        "gpkg_version": Key(str, "1.2", one_of("1.2", "1.3", "1.4"),
+                            "GeoPackage version the file declares (1.2 opens in older desktop GIS)"),
+    },
+    "report": {
+        "units": Key(str, "si", one_of("si", "imperial"),
+                     "units shown in the summary and sag tables besides SI (files stay SI)"),
     },
     "pipeline": {
         "stages": Key(list, [], list_of_text, doc="stages to add to (or replace in) the built-in chain"),

@@ -23,6 +23,7 @@ import numpy as np
 
 from routesag.errors import ProjectError
 from routesag.pipeline import Stage
+from routesag.wording import plural
 
 #: Sag ratio (sag / horizontal span) above which the parabola and the ruling span lose accuracy.
 SAG_RATIO_LIMIT = 0.05
@@ -101,7 +102,7 @@ def long_span_warnings(spans) -> list[str]:
     if long.empty:
         return []
     items = [f"{row.span_id} ({row.span_m:.0f} m)" for row in long.itertuples()]
-    return [f"{len(items)} span(s) longer than {LONG_SPAN_M:.0f} m: {_listing(items)}; check the structure "
+    return [f"{plural(len(items), 'span')} longer than {LONG_SPAN_M:.0f} m: {_listing(items)}; check the structure "
             "positions and whether these crossings need their own design"]
 
 
@@ -144,7 +145,7 @@ def edge_band_warnings(structures, terrain, crs, band_m: float) -> list[str]:
              + [str(sid) for sid in ids[centre_in & ~ring_in]])
     if not items:
         return []
-    return [f"{len(items)} structure(s) within {band_m:g} m of the terrain edge or outside it: "
+    return [f"{plural(len(items), 'structure')} within {band_m:g} m of the terrain edge or outside it: "
             f"{_listing(items)}; the wire near them may hang over missing terrain (unknown clearance)"]
 
 
@@ -160,9 +161,10 @@ def sag_ratio_warnings(profiles, spans) -> list[str]:
              if ratio > SAG_RATIO_LIMIT]
     if not items:
         return []
-    return [f"{len(items)} span(s) sag more than {SAG_RATIO_LIMIT * 100:g} % of their length: {_listing(items)}; "
-            "the ruling-span tension and parabolic estimates lose accuracy there (the wire itself is drawn "
-            "as an exact catenary): check the stringing tension"]
+    verb, their = ("sags", "its") if len(items) == 1 else ("sag", "their")
+    return [f"{plural(len(items), 'span')} {verb} more than {SAG_RATIO_LIMIT * 100:g} % of {their} length: "
+            f"{_listing(items)}; the ruling-span tension and parabolic estimates lose accuracy there (the wire "
+            "itself is drawn as an exact catenary): check the stringing tension"]
 
 
 def _listing(items: list[str]) -> str:

@@ -128,4 +128,11 @@ def span_profile(row, station_m: float, terrain: TerrainView | None = None) -> C
         stations_m=stations, xyz=xyz, horizontal_tension_n=h,
         max_tension_n=float(geometry.max_tension_n), sag_m=float(geometry.sag_m),
         low_point_m=low_m, catenary_m=float(geometry.catenary_m), blowout_deg=float(row["blowout_deg"]), wire=str(row.get("wire", "")),
-        swung_sag_m=float(geometry.swung_sag_m), blowout_m=float(np.max(np.abs((xyz[:, :2] - start[:2]) @ across))))
+        swung_sag_m=float(geometry.swung_sag_m), blowout_m=_blowout_m(xyz, start, across, phi))
+
+
+def _blowout_m(xyz, start, across, blowout_rad) -> float:
+    """Largest horizontal distance of the wire from its clamps' vertical plane [m]; exactly 0 without blowout."""
+    if blowout_rad == 0.0:
+        return 0.0  # the wire hangs in that plane: the sum would leave rounding (1e-10 m)
+    return float(np.max(np.abs((xyz[:, :2] - start[:2]) @ across)))

@@ -12,8 +12,10 @@ import shapely
 
 from routesag import __version__
 from routesag.io.gpkg import write_layers
+from routesag.io.gpkg_version import DEFAULT_VERSION
 from routesag.io.hashing import sha256_file
 from routesag.pipeline import Stage
+from routesag.stages.tidy import tidy_layers
 
 CAUTION = ("Screening aid only: loads and required clearances come from the governing code (NESC, EN 50341 "
            "national annex, local rules); results must be confirmed by a licensed engineer.")
@@ -54,7 +56,7 @@ class AssembleLayers(Stage):
             if data.get(name) is not None:
                 layers[name] = (data[name], geometry)
         layers["run_info"] = (run_info_table(data["project"], ctx), None)
-        return {"layers": layers}
+        return {"layers": tidy_layers(layers)}
 
 
 class WriteGeoPackage(Stage):
@@ -65,7 +67,8 @@ class WriteGeoPackage(Stage):
 
     def run(self, data, ctx):
         project = data["project"]
-        write_layers(project.output_path, data["layers"], protect=tuple(project.input_paths().values()))
+        write_layers(project.output_path, data["layers"], protect=tuple(project.input_paths().values()),
+                     version=project.settings.get("output", {}).get("gpkg_version", DEFAULT_VERSION))
         return {"geopackage": project.output_path}
 
 

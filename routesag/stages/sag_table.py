@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from routesag.errors import ProjectError
 from routesag.physics.catenary import midspan_sag, support_tensions
 from routesag.physics.loads import bare_weight_n_m
 from routesag.physics.state_change import change_of_state_by_law
@@ -41,11 +42,14 @@ class BuildSagTable(Stage):
         return {"sag_table": sag_table(data["project"], data["sections"], data["wire_spans"], data["tensions"])}
 
 
-def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATURES_C) -> pd.DataFrame:
-    """Rows of (section, wire, ruling span or span, temperature); see :data:`COLUMNS`.
+def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATURES_C,
+              conditions=("initial",)) -> pd.DataFrame:
+    """Rows of (section, wire, condition, ruling span or span, temperature); see :data:`COLUMNS`.
 
     The stringing tension of each section and wire is read from ``tensions``
     (``stringing_tension_n``), so a design tension found from the limits is used.
+    ``conditions``: ``initial`` (as strung) and/or ``final`` (after creep: the
+    initial state at the temperature plus the wire's creep allowance).
     """
     first = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])
     stringing_n = first["stringing_tension_n"]
@@ -57,18 +61,23 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
         for wire in project.line_wires(section["line_id"]):
             key = (section["section_id"], wire.name)
             start_c = None if stringing_c is None else float(stringing_c[key])
-            frames.append(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
-                                            start_c))
+            frames.extend(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
+                                            condition, start_c) for condition in conditions)
     if not frames:
         return pd.DataFrame(columns=COLUMNS)
     return pd.concat(frames, ignore_index=True)[COLUMNS]
 
 
 def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
-                      stringing_temperature_c=None) -> pd.DataFrame:
+                      condition="initial", stringing_temperature_c=None) -> pd.DataFrame:
     """The sag table of one wire in one tension section (ruling span first, then its spans in order).
 
     ``stringing_tension_n`` holds at ``stringing_temperature_c`` (default: the wire's stringing temperature).
+
+    Raises
+    ------
+    ProjectError
+        ``final`` for a wire without a creep allowance.
     """
     c, stringing = wire.conductor, wire.stringing
     start_c = stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
@@ -76,8 +85,13 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
     ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
     temps = np.asarray(temperatures_c, dtype=float)
     law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
-    h_n = np.array([change_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, start_c, w_n_m, t, law, law)
-                    for t in temps])
+    try:
+        states_c, final_law = condition_states(c, stringing, temps, condition, start_c, law)
+    except ValueError as exc:
+        raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
+                           "creep_allowance_c in its [stringing] table") from None
+    h_n = np.array([change_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, start_c, w_n_m, t, law, final_law)
+                    for t in states_c])
     ruling = {"kind": "ruling", "span_id": None, "from_id": None, "to_id": None}
     span_rows = [{"kind": "span", "span_id": s.span_id, "from_id": s.from_id, "to_id": s.to_id}
                  for s in spans.itertuples()]
@@ -89,7 +103,7 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
     frame = pd.DataFrame({
         "section_id": section["section_id"], "wire": wire.name,
         "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
-        "temperature_c": np.broadcast_to(temps, shape).ravel(), "condition": "initial",
+        "temperature_c": np.broadcast_to(temps, shape).ravel(), "condition": condition,
         "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
         "max_tension_n": np.maximum(at_a, at_b).ravel(),
         "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
@@ -97,3 +111,26 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
     })
     labels = pd.DataFrame([ruling] + span_rows).loc[np.repeat(np.arange(shape[0]), shape[1])]
     return pd.concat([frame, labels.reset_index(drop=True)], axis=1)
+
+
+def condition_states(conductor, stringing, temps_c, condition, start_c, initial_law):
+    """Temperatures to carry the initial state to, and the stretch law of ``condition``.
+
+    Two-material conductors creep in the aluminium (the final law holds its creep
+    strain, from ``creep_strain`` or converted from ``creep_allowance_c``); linear
+    ones take the final state at T as the initial state at T + creep allowance.
+
+    Raises
+    ------
+    ValueError
+        The final condition without a creep allowance or strain.
+    """
+    members = conductor.two_material
+    if condition != "final" or members is None:
+        return [stringing.state_temperature_c(float(t), condition) for t in temps_c], initial_law
+    strain = stringing.creep_strain
+    if stringing.creep_allowance_c is not None:
+        strain = members.creep_strain_from_allowance(stringing.creep_allowance_c)
+    if strain is None:
+        raise ValueError("the final condition needs creep_allowance_c or creep_strain")
+    return [float(t) for t in temps_c], conductor.law(start_c, strain)

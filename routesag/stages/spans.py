@@ -8,6 +8,7 @@ from routesag.errors import DataError
 from routesag.physics.state_change import ruling_span
 from routesag.physics.supports import structure_axes
 from routesag.pipeline import Stage
+from routesag.project.model import line_label, line_prefix
 
 MIN_SPAN_M = 0.5
 
@@ -51,16 +52,16 @@ def _line_spans(line_id: str, line: pd.DataFrame, problems: list[str]) -> pd.Dat
     dx, dy = np.diff(x), np.diff(y)
     span_m = np.hypot(dx, dy)
     for i in np.flatnonzero(span_m < MIN_SPAN_M):
-        problems.append(f"line {line_id}: structures {ids[i]} and {ids[i + 1]} stand at the same spot "
+        problems.append(f"{line_label(line_id)}: structures {ids[i]} and {ids[i + 1]} stand at the same spot "
                         f"({span_m[i]:.2f} m apart): zero-length span")
     strain = acts_as_strain(line)
     # A span belongs to the section that started at the last strain structure before it.
     section_no = np.cumsum(strain[:-1])
     return pd.DataFrame({
-        "span_id": [f"{line_id}:{a}-{b}" for a, b in zip(ids[:-1], ids[1:])],
+        "span_id": [f"{line_prefix(line_id)}{a}-{b}" for a, b in zip(ids[:-1], ids[1:])],
         "line_id": line_id,
         "from_id": ids[:-1], "to_id": ids[1:],
-        "section_id": [f"{line_id}:S{n}" for n in section_no],
+        "section_id": [f"{line_prefix(line_id)}S{n}" for n in section_no],
         "x0": x[:-1], "y0": y[:-1], "z0": z[:-1], "x1": x[1:], "y1": y[1:], "z1": z[1:],
         "span_m": span_m, "dz_m": np.diff(z),
         "bearing_deg": np.degrees(np.arctan2(dx, dy)) % 360.0,
@@ -109,7 +110,7 @@ def ignored_strain_insulators(structures: pd.DataFrame) -> list[str]:
     messages = []
     for line_id, line in _line_order(structures):
         for sid in line["structure_id"].to_numpy()[acts_as_strain(line) & (_given_strings(line) > 0)]:
-            messages.append(f"line {line_id}: structure {sid}: insulator_m ignored: it acts as a strain "
+            messages.append(f"{line_label(line_id)}: structure {sid}: insulator_m ignored: it acts as a strain "
                             "structure (strain strings lie along the wire, the wire is held at attach_height_m)")
     return messages
 

@@ -78,7 +78,7 @@ def test_sag_table_command_writes_csv(survey, tmp_path, table):
 
 
 def test_sag_table_command_prints_csv_and_writes_no_geopackage(survey):
-    result = CliRunner().invoke(main, ["sag-table", str(survey)])
+    result = CliRunner().invoke(main, ["sag-table", str(survey), "--csv", "-"])
     assert result.exit_code == 0, result.output
     lines = result.output.splitlines()
     assert lines[0].startswith("section_id,wire,kind,span_id") and len(lines) == 1 + 75
