@@ -23,7 +23,7 @@ class RunResult:
         return self.layers[name]
 
 
-def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_section=None) -> RunResult:
+def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_section=None) -> RunResult:
     """Run the pipeline of a project file and write its GeoPackage.
 
     Parameters
@@ -34,11 +34,12 @@ def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_
         Output GeoPackage; overrides ``[output] path``.
     progress : callable, optional
         Called with each stage's name as it starts.
-    workers : int, optional
-        Worker processes for the tension sections; 0 means one per core. Default 1: in this process
-        (the command line's default is ``[engine] workers``).
+    workers : int or None, optional
+        Worker processes for the tension sections; 0 means one per core. Default 1: in this process.
+        None: the project's ``[engine]`` table decides (its scheduler, else its workers), as the command
+        line does when given neither ``--workers`` nor ``--scheduler``.
     scheduler : str, optional
-        A dask scheduler address or ``local:N``; default ``[engine] scheduler``.
+        A dask scheduler address (``tcp://host:port``) or ``local:N``; wins over ``workers``.
     on_section : callable, optional
         Called with (section_id, done, total) as each section finishes.
 
@@ -79,12 +80,22 @@ def compute(project_path, targets, progress=None) -> dict:
     return _run_closing_terrain(chain, project, RunContext(), progress)
 
 
-def engine_factory(project: Project, workers=None, scheduler=None):
-    """A function of the number of sections giving the run's engine (arguments win over ``[engine]``)."""
-    from routesag.engine import make_engine
+def engine_factory(project: Project, workers=1, scheduler=None):
+    """A function of the number of sections giving the run's engine; checks the choice at once.
 
-    scheduler = scheduler or project.settings.get("engine", {}).get("scheduler") or None
-    workers = 1 if workers is None else workers
+    ``scheduler`` wins, then ``workers``; with ``workers`` None the project's ``[engine]`` table decides.
+    """
+    from routesag.engine import check_scheduler, check_workers, make_engine
+
+    where = "--scheduler"
+    if not scheduler and workers is None:
+        engine = project.settings.get("engine", {})
+        scheduler, workers = engine.get("scheduler") or None, engine.get("workers", 0)
+        where = f"{project.path}: [engine] scheduler"
+    if scheduler:
+        check_scheduler(scheduler, where)
+    else:
+        check_workers(workers)
     return lambda sections: make_engine(workers, scheduler, sections)
 
 

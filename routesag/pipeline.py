@@ -94,6 +94,8 @@ class RunContext:
                 mine = self.notes.setdefault("section_stage_seconds", {})
                 for name, seconds in value.items():
                     mine[name] = round(mine.get(name, 0.0) + seconds, 3)
+            elif key == "section_seconds":
+                self.notes.setdefault(key, {}).update(value)
             elif isinstance(value, int) and not isinstance(value, bool) and isinstance(self.notes.get(key), int):
                 self.notes[key] += value
             else:

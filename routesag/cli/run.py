@@ -1,17 +1,21 @@
 """``routesag run PROJECT.toml``."""
 import click
 
-from routesag.cli.options import fail_on_violation_option, finish, handle_errors, out_option
+from routesag.cli.options import (
+    fail_on_violation_option, finish, handle_errors, out_option, scheduler_option, workers_option,
+)
 
 
 @click.command("run")
 @click.argument("project", type=click.Path(dir_okay=False))
 @out_option
 @fail_on_violation_option
+@workers_option
+@scheduler_option
 @click.option("--spans", "per_span", is_flag=True, help="Also print the worst clearance of every span.")
 @handle_errors
-def run_command(project, out, fail_on_violation, per_span):
+def run_command(project, out, fail_on_violation, workers, scheduler, per_span):
     """Compute conductors and clearances for PROJECT (a TOML project file)."""
     from routesag.api import run
 
-    finish(run(project, out=out), fail_on_violation, per_span)
+    finish(run(project, out=out, workers=workers, scheduler=scheduler), fail_on_violation, per_span)
