@@ -266,7 +266,8 @@ CASES = [
     Case("station spacing larger than the shortest span", lambda tmp: good_survey(tmp, station_m=260.0),
          ProjectError, (r"\[clearance\] station_m = 260 m is larger than the shortest span A:P2-P3 \(250\.0 m\)",)),
     Case("station spacing absurdly fine", lambda tmp: good_survey(tmp, station_m=1e-6), ProjectError,
-         (r"\[clearance\] station_m = 1e-06 m asks for 9e\+08 stations per load case \(at most 1e\+07\)",)),
+         (r"\[clearance\] station_m = 1e-06 m asks for 5\.5e\+08 stations per load case in tension section "
+          r"A:P1-P3 \(550 m; at most 1e\+06 per section\); use at least 0\.00055 m",)),
     Case("absurd default attach height", lambda tmp: good_survey(tmp, attach_height_m=300.0), ProjectError,
          (r"\[line\]: attach_height_m = 300\.0 must be > 0 and <= 200",)),
     Case("temperature beyond any float (OverflowError)",
