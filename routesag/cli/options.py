@@ -64,11 +64,16 @@ def handle_errors(func):
     return wrapper
 
 
+def quiet() -> bool:
+    """Whether the command line was given -q."""
+    return bool(click.get_current_context().find_root().obj.get("quiet"))
+
+
 def finish(result, fail_on_violation: bool, per_span: bool = False) -> None:
     """Print the summary (unless quiet) and set the exit code."""
     from routesag.report import summary_text
 
-    if not click.get_current_context().find_root().obj.get("quiet"):
+    if not quiet():
         click.echo(summary_text(result, per_span=per_span))
     if fail_on_violation and len(result.layers["clearance_violations"]):
         raise click.exceptions.Exit(EXIT_VIOLATION)
