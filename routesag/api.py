@@ -41,7 +41,7 @@ def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_sec
     scheduler : str, optional
         A dask scheduler address (``tcp://host:port``) or ``local:N``; wins over ``workers``.
     on_section : callable, optional
-        Called with (section_id, done, total) as each section finishes.
+        Called with (section_id, done, total) as each section finishes, and with ("", 0, total) before.
 
     Returns
     -------

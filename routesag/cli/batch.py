@@ -19,6 +19,7 @@ def batch_command(projects, fail_on_violation, workers, scheduler):
     --scheduler the first project's [engine] table decides.
     """
     from routesag.api import run_batch
+    from routesag.progress import section_progress
     from routesag.report import summary_text
 
     def report(result):
@@ -26,6 +27,7 @@ def batch_command(projects, fail_on_violation, workers, scheduler):
             click.echo(f"== {result.project.path}")
             click.echo(summary_text(result))
 
-    results = run_batch(projects, workers=workers, scheduler=scheduler, on_result=report)
+    with section_progress(quiet()) as on_section:
+        results = run_batch(projects, workers=workers, scheduler=scheduler, on_section=on_section, on_result=report)
     if fail_on_violation and any(len(r.layers["clearance_violations"]) for r in results):
         raise click.exceptions.Exit(EXIT_VIOLATION)

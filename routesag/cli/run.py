@@ -2,7 +2,7 @@
 import click
 
 from routesag.cli.options import (
-    fail_on_violation_option, finish, handle_errors, out_option, scheduler_option, workers_option,
+    fail_on_violation_option, finish, handle_errors, out_option, quiet, scheduler_option, workers_option,
 )
 
 
@@ -17,5 +17,8 @@ from routesag.cli.options import (
 def run_command(project, out, fail_on_violation, workers, scheduler, per_span):
     """Compute conductors and clearances for PROJECT (a TOML project file)."""
     from routesag.api import run
+    from routesag.progress import section_progress
 
-    finish(run(project, out=out, workers=workers, scheduler=scheduler), fail_on_violation, per_span)
+    with section_progress(quiet()) as on_section:
+        result = run(project, out=out, workers=workers, scheduler=scheduler, on_section=on_section)
+    finish(result, fail_on_violation, per_span)
