@@ -12,8 +12,10 @@ from __future__ import annotations
 import logging
 import multiprocessing
 import os
+from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
+from functools import partial
 
 from routesag.errors import EngineError
 from routesag.io.terrain import RasterRef, TerrainSampler
@@ -53,6 +55,18 @@ def run_portable(task: SectionTask):
     return run_section(task, open_rasters=open_references)
 
 
+def in_order(submit, tasks, ahead: int):
+    """Section results in task order, each task sent as ``submit(run_portable, portable(task))``, with at most
+    ``ahead`` tasks in flight so finished results do not pile up (memory stays bounded)."""
+    pending = deque()
+    for task in tasks:
+        pending.append(submit(run_portable, portable(task)))
+        if len(pending) >= ahead:
+            yield pending.popleft().result()
+    while pending:
+        yield pending.popleft().result()
+
+
 class InProcess:
     """Sections one after the other in this process, with the rasters already open."""
 
@@ -78,14 +92,7 @@ class WorkerPool:
         self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
 
     def map(self, tasks):
-        pending, tasks = [], iter(tasks)
-        ahead = self.workers * AHEAD_PER_WORKER
-        for task in tasks:
-            pending.append(self._pool.submit(run_portable, portable(task)))
-            if len(pending) >= ahead:
-                yield pending.pop(0).result()
-        for future in pending:
-            yield future.result()
+        return in_order(self._pool.submit, tasks, self.workers * AHEAD_PER_WORKER)
 
     def close(self):
         self._pool.shutdown(cancel_futures=True)
@@ -113,9 +120,8 @@ class DaskEngine:
         self.name = f"dask scheduler {address}"
 
     def map(self, tasks):
-        futures = [self._client.submit(run_portable, portable(task), pure=False) for task in tasks]
-        for future in futures:
-            yield future.result()
+        slots = sum(self._client.nthreads().values()) or 1
+        return in_order(partial(self._client.submit, pure=False), tasks, slots * AHEAD_PER_WORKER)
 
     def close(self):
         self._client.close()
