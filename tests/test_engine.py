@@ -117,3 +117,17 @@ def test_engine_table_workers_is_used_without_the_option(survey):
     assert routesag.run(survey, workers=None).notes["engine"] == "in process"
     survey.write_text(survey.read_text().replace("workers = 1", "workers = 2"))
     assert routesag.run(survey, workers=None).notes["engine"] == "2 worker processes"
+
+
+def test_an_error_in_a_worker_is_the_serial_error(survey):
+    """A section that fails in a worker process ends the run as it would in process: exit 2, same message."""
+    text = survey.read_text().replace('terrain = "terrain.tif"', 'terrain = "terrain.tif"\nsurface = "dsm.tif"')
+    survey.write_text(text)
+    (survey.parent / "dsm.tif").write_bytes((survey.parent / "terrain.tif").read_bytes()[:3000])  # truncated
+    outputs = []
+    for workers in ("1", "2"):
+        result = CliRunner().invoke(main, ["run", str(survey), "--workers", workers])
+        assert result.exit_code == 2, result.output
+        assert "Traceback" not in result.output and not (survey.parent / "out.gpkg").exists()
+        outputs.append(result.output)
+    assert "dsm.tif" in outputs[0] and outputs[0] == outputs[1]
