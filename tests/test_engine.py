@@ -131,3 +131,18 @@ def test_an_error_in_a_worker_is_the_serial_error(survey):
         assert "Traceback" not in result.output and not (survey.parent / "out.gpkg").exists()
         outputs.append(result.output)
     assert "dsm.tif" in outputs[0] and outputs[0] == outputs[1]
+
+
+def test_sample_survey_with_crossings_and_surface_gives_the_serial_output_in_workers(tmp_path):
+    """The invented sample survey has road/rail/water crossings and a surface model, which the small line lacks:
+    crossings travel to the workers as frames, the surface model is opened in each worker."""
+    from routesag.sample import write_sample_survey
+
+    project = write_sample_survey(tmp_path)
+    import pyogrio
+
+    serial_tables = run_cli(project, tmp_path / "serial.gpkg", "--workers", "1")
+    assert len({row[1] for row in serial_tables["sections"]}) > 2
+    categories = set(pyogrio.read_dataframe(tmp_path / "serial.gpkg", layer="clearance_violations")["category"])
+    assert categories - {"ground"}, categories  # the comparison covers crossing or surface violations
+    assert_same_tables(run_cli(project, tmp_path / "pool.gpkg", "--workers", "2"), serial_tables)
