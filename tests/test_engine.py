@@ -146,3 +146,17 @@ def test_sample_survey_with_crossings_and_surface_gives_the_serial_output_in_wor
     categories = set(pyogrio.read_dataframe(tmp_path / "serial.gpkg", layer="clearance_violations")["category"])
     assert categories - {"ground"}, categories  # the comparison covers crossing or surface violations
     assert_same_tables(run_cli(project, tmp_path / "pool.gpkg", "--workers", "2"), serial_tables)
+
+
+def test_the_api_raises_an_engine_error_before_reading_anything(survey, monkeypatch):
+    import routesag
+    import routesag.stages.inputs
+
+    def never(*args, **kwargs):
+        raise AssertionError("inputs read before the engine was checked")
+
+    monkeypatch.setattr(routesag.stages.inputs.ReadInputs, "run", never)
+    for kwargs, message in (({"scheduler": "tcp://nowhere"}, "is not a scheduler address"),
+                            ({"workers": -1}, "give a whole number of worker processes")):
+        with pytest.raises(routesag.EngineError, match=message):
+            routesag.run(survey, **kwargs)
