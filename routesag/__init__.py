@@ -9,7 +9,7 @@ clearances come from the governing code and are confirmed by a licensed engineer
 __version__ = "0.1.0"
 
 from routesag.errors import (  # noqa: E402
-    DataError, InputError, OutputError, PipelineError, ProjectError, RoutesagError, SolveError,
+    DataError, EngineError, InputError, OutputError, PipelineError, ProjectError, RoutesagError, SolveError,
 )
 
 
@@ -27,4 +27,5 @@ def __getattr__(name):
 __all__ = [
     "__version__", "run", "RunResult", "load_project",
     "RoutesagError", "InputError", "ProjectError", "DataError", "SolveError", "PipelineError", "OutputError",
+    "EngineError",
 ]

@@ -4,7 +4,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from routesag.errors import OutputError
+from routesag.errors import InputError, OutputError, ProjectError
 from routesag.io.gpkg_version import check_extension
 from routesag.pipeline import RunContext, assemble_chain, run_chain, stages_for
 from routesag.project import Project, load_project
@@ -24,7 +24,7 @@ class RunResult:
         return self.layers[name]
 
 
-def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_section=None) -> RunResult:
+def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_section=None) -> RunResult:
     """Run the pipeline of a project file and write its GeoPackage.
 
     Parameters
@@ -35,13 +35,14 @@ def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_
         Output GeoPackage; overrides ``[output] path``.
     progress : callable, optional
         Called with each stage's name as it starts.
-    workers : int, optional
-        Worker processes for the tension sections; 0 means one per core. Default 1: in this process
-        (the command line's default is ``[engine] workers``).
+    workers : int or None, optional
+        Worker processes for the tension sections; 0 means one per core. Default 1: in this process.
+        None: the project's ``[engine]`` table decides (its scheduler, else its workers), as the command
+        line does when given neither ``--workers`` nor ``--scheduler``.
     scheduler : str, optional
-        A dask scheduler address or ``local:N``; default ``[engine] scheduler``.
+        A dask scheduler address (``tcp://host:port``) or ``local:N``; wins over ``workers``.
     on_section : callable, optional
-        Called with (section_id, done, total) as each section finishes.
+        Called with (section_id, done, total) as each section finishes, and with ("", 0, total) before.
 
     Returns
     -------
@@ -50,8 +51,66 @@ def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_
     """
     project = load_project(project_path, output=out)
     check_destination(project)
+    return run_project(project, engine_factory(project, workers, scheduler), progress, on_section)
+
+
+def run_batch(project_paths, workers=1, scheduler=None, progress=None, on_section=None, on_result=None) -> list:
+    """Run several project files through one engine (one worker pool or one cluster), each to its own output.
+
+    Every project file is read and checked, and the outputs are checked to be distinct and writable, before
+    any of them runs. ``workers`` and ``scheduler`` are as in :func:`run`; with ``workers`` None the first
+    project's ``[engine]`` table decides. ``on_result(result)`` is called as each project finishes.
+
+    Raises
+    ------
+    InputError
+        With every problem of every project file, before anything runs.
+    """
+    projects = load_batch(project_paths)
+    factory = engine_factory(projects[0], workers, scheduler)
+    engine = factory(None)
+    results = []
+    try:
+        for project in projects:
+            results.append(run_project(project, engine, progress, on_section))
+            if on_result:
+                on_result(results[-1])
+    finally:
+        engine.close()
+    return results
+
+
+def load_batch(project_paths) -> list[Project]:
+    """Read and check every project of a batch; one error listing every problem of every file."""
+    projects, problems = [], []
+    for path in project_paths:
+        try:
+            project = load_project(path)
+            check_destination(project)
+            projects.append(project)
+        except InputError as exc:
+            problems.extend(exc.problems)
+        except OutputError as exc:
+            problems.append(f"project file {path}: {exc}")
+    outputs: dict[Path, Path] = {}
+    for project in projects:
+        other = outputs.setdefault(project.output_path.resolve(), project.path)
+        if other != project.path:
+            problems.append(f"project file {project.path}: output {project.output_path} is also the output of "
+                            f"{other}; give each project its own [output] path")
+    inputs = {p.resolve(): project.path for project in projects for p in project.input_paths().values()}
+    problems += [f"project file {project.path}: output {project.output_path} is an input of {inputs[out]}"
+                 for project in projects if (out := project.output_path.resolve()) in inputs]
+    if not project_paths:
+        problems.append("no project file given")
+    if problems:
+        raise ProjectError(problems)
+    return projects
+
+
+def run_project(project: Project, engine, progress=None, on_section=None) -> RunResult:
+    """Run a loaded project's chain on ``engine`` (an engine, or a function of the section count making one)."""
     ctx = RunContext()
-    engine = engine_factory(project, workers, scheduler)
     data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress, engine, on_section)
     layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
@@ -80,12 +139,22 @@ def compute(project_path, targets, progress=None) -> dict:
     return _run_closing_terrain(chain, project, RunContext(), progress)
 
 
-def engine_factory(project: Project, workers=None, scheduler=None):
-    """A function of the number of sections giving the run's engine (arguments win over ``[engine]``)."""
-    from routesag.engine import make_engine
+def engine_factory(project: Project, workers=1, scheduler=None):
+    """A function of the number of sections giving the run's engine; checks the choice at once.
 
-    scheduler = scheduler or project.settings.get("engine", {}).get("scheduler") or None
-    workers = 1 if workers is None else workers
+    ``scheduler`` wins, then ``workers``; with ``workers`` None the project's ``[engine]`` table decides.
+    """
+    from routesag.engine import check_scheduler, check_workers, make_engine
+
+    where = "--scheduler"
+    if not scheduler and workers is None:
+        engine = project.settings.get("engine", {})
+        scheduler, workers = engine.get("scheduler") or None, engine.get("workers", 0)
+        where = f"{project.path}: [engine] scheduler"
+    if scheduler:
+        check_scheduler(scheduler, where)
+    else:
+        check_workers(workers)
     return lambda sections: make_engine(workers, scheduler, sections)
 
 

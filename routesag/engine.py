@@ -12,10 +12,12 @@ from __future__ import annotations
 import logging
 import multiprocessing
 import os
+from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
+from functools import partial
 
-from routesag.errors import ProjectError
+from routesag.errors import EngineError
 from routesag.io.terrain import RasterRef, TerrainSampler
 from routesag.pipeline import SectionTask, run_section
 
@@ -23,6 +25,10 @@ log = logging.getLogger("routesag")
 
 #: Sections sent to a worker pool ahead of the one being collected, per worker (bounds memory).
 AHEAD_PER_WORKER = 2
+#: Transports a dask scheduler address may name.
+SCHEDULER_SCHEMES = ("tcp", "tls", "ucx", "ws", "wss")
+#: How long to try reaching a dask scheduler before giving up [s].
+CONNECT_TIMEOUT_S = 20
 
 
 def default_workers() -> int:
@@ -47,6 +53,18 @@ def open_references(data: dict) -> dict:
 def run_portable(task: SectionTask):
     """Worker side of a section task."""
     return run_section(task, open_rasters=open_references)
+
+
+def in_order(submit, tasks, ahead: int):
+    """Section results in task order, each task sent as ``submit(run_portable, portable(task))``, with at most
+    ``ahead`` tasks in flight so finished results do not pile up (memory stays bounded)."""
+    pending = deque()
+    for task in tasks:
+        pending.append(submit(run_portable, portable(task)))
+        if len(pending) >= ahead:
+            yield pending.popleft().result()
+    while pending:
+        yield pending.popleft().result()
 
 
 class InProcess:
@@ -74,14 +92,7 @@ class WorkerPool:
         self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
 
     def map(self, tasks):
-        pending, tasks = [], iter(tasks)
-        ahead = self.workers * AHEAD_PER_WORKER
-        for task in tasks:
-            pending.append(self._pool.submit(run_portable, portable(task)))
-            if len(pending) >= ahead:
-                yield pending.pop(0).result()
-        for future in pending:
-            yield future.result()
+        return in_order(self._pool.submit, tasks, self.workers * AHEAD_PER_WORKER)
 
     def close(self):
         self._pool.shutdown(cancel_futures=True)
@@ -91,24 +102,26 @@ class DaskEngine:
     """Sections on a dask.distributed cluster: ``tcp://host:port``, or ``local:N`` for a LocalCluster of N."""
 
     def __init__(self, address: str):
+        check_scheduler(address)
         try:
             from dask.distributed import Client, LocalCluster
         except ImportError:
-            raise ProjectError(f"scheduler {address!r} needs dask.distributed: pip install 'routesag[dask]'") from None
+            raise EngineError(f"scheduler {address!r} needs dask.distributed: pip install 'routesag[dask]'") from None
         self._cluster = None
         if address.startswith("local:"):
-            workers = _local_workers(address)
-            self._cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                                         dashboard_address=None)
+            self._cluster = LocalCluster(n_workers=int(address.split(":", 1)[1]), threads_per_worker=1,
+                                         processes=True, dashboard_address=None)
             self._client = Client(self._cluster)
         else:
-            self._client = Client(address)
+            try:
+                self._client = Client(address, timeout=CONNECT_TIMEOUT_S)
+            except (OSError, TimeoutError) as exc:
+                raise EngineError(f"cannot reach the dask scheduler at {address!r}: {exc}") from None
         self.name = f"dask scheduler {address}"
 
     def map(self, tasks):
-        futures = [self._client.submit(run_portable, portable(task), pure=False) for task in tasks]
-        for future in futures:
-            yield future.result()
+        slots = sum(self._client.nthreads().values()) or 1
+        return in_order(partial(self._client.submit, pure=False), tasks, slots * AHEAD_PER_WORKER)
 
     def close(self):
         self._client.close()
@@ -116,11 +129,24 @@ class DaskEngine:
             self._cluster.close()
 
 
-def _local_workers(address: str) -> int:
-    count = address.split(":", 1)[1]
-    if not count.isdigit() or int(count) < 1:
-        raise ProjectError(f"scheduler {address!r}: give local:N with N >= 1 workers")
-    return int(count)
+def check_scheduler(address: str, where: str = "scheduler") -> None:
+    """Refuse a scheduler address that is neither ``local:N`` (N >= 1) nor ``SCHEME://HOST:PORT``."""
+    if address.startswith("local:"):
+        count = address.split(":", 1)[1]
+        if not count.isdigit() or int(count) < 1:
+            raise EngineError(f"{where} {address!r}: give local:N with N >= 1 workers")
+        return
+    scheme, sep, rest = address.partition("://")
+    host, _, port = rest.rpartition(":")
+    if not sep or scheme not in SCHEDULER_SCHEMES or not host or not port.isdigit():
+        raise EngineError(f"{where} {address!r} is not a scheduler address: give local:N, or SCHEME://HOST:PORT "
+                          f"with SCHEME one of {', '.join(SCHEDULER_SCHEMES)} (e.g. tcp://10.0.0.5:8786)")
+
+
+def check_workers(workers: int, where: str = "workers") -> None:
+    """Refuse a worker count that is not a whole number >= 0 (0: one per core)."""
+    if isinstance(workers, bool) or not isinstance(workers, int) or workers < 0:
+        raise EngineError(f"{where} = {workers!r}: give a whole number of worker processes >= 1 (0: one per core)")
 
 
 def make_engine(workers: int | None = None, scheduler: str | None = None, sections: int | None = None):
@@ -131,6 +157,7 @@ def make_engine(workers: int | None = None, scheduler: str | None = None, sectio
     """
     if scheduler:
         return DaskEngine(scheduler)
+    check_workers(workers or 0)
     workers = workers or default_workers()
     if sections is not None:
         workers = min(workers, max(sections, 1))

@@ -43,6 +43,11 @@ class SolveError(InputError):
     """A physical problem has no solution for the inputs given (e.g. change of state)."""
 
 
+class EngineError(InputError):
+    """The engine for the tension sections cannot be set up: a bad worker count or scheduler address, or a
+    cluster that cannot be reached."""
+
+
 class PipelineError(RoutesagError):
     """Stages cannot be assembled into a valid chain (missing or clashing datasets)."""
 

@@ -96,6 +96,8 @@ class RunContext:
                 mine = self.notes.setdefault("section_stage_seconds", {})
                 for name, seconds in value.items():
                     mine[name] = round(mine.get(name, 0.0) + seconds, 3)
+            elif key == "section_seconds":
+                self.notes.setdefault(key, {}).update(value)
             elif isinstance(value, int) and not isinstance(value, bool) and isinstance(self.notes.get(key), int):
                 self.notes[key] += value
             else:
@@ -275,7 +277,7 @@ def run_chain(chain: list[Stage], data: dict[str, Any], ctx: RunContext, progres
     :mod:`routesag.engine`); it may also be a function of the number of
     sections that makes the engine, which is then closed after the sections.
     ``on_section(section_id, done, total)`` is called as each section's
-    results arrive.
+    results arrive, and once with ``done`` 0 (and no id) before the first.
     """
     phases = split_phases(chain)
     run_stages(phases.start, data, ctx, progress)
@@ -356,6 +358,8 @@ def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=
     made = engine is not None and not hasattr(engine, "map")
     engine = engine(len(tasks)) if made else (engine or InProcess())
     parts: list[dict] = []
+    if on_section:
+        on_section("", 0, len(tasks))
     try:
         for done, (result, section_ctx) in enumerate(engine.map(tasks), start=1):
             parts.append(result)
@@ -369,6 +373,9 @@ def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=
         if made:
             engine.close()
     ctx.notes["engine"] = getattr(engine, "name", type(engine).__name__)
+    for stage in phases.section:
+        seconds = ctx.notes.get("section_stage_seconds", {}).get(stage.name, 0.0)
+        log.info("stage %s (per section, %d sections, summed over workers): %.2f s", stage.name, len(tasks), seconds)
     return {name: merge_results([p[name] for p in parts]) for name in phases.section_outputs}
 
 

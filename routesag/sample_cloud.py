@@ -31,7 +31,7 @@ from routesag import sample
 
 POINT_CLOUD_FILE = "survey.laz"
 SURVEY_TEMPERATURE_C = 20.0
-RETENSIONED_SECTION = "L1:S2"        # T05-T09
+RETENSIONED_SECTION = "L1:T05-T09"
 AS_BUILT_PHASE_N = 24_000.0          # its phases' tension at the survey temperature [N]
 POINTS_PER_M = 1.5                   # wire returns per metre of span
 NOISE_M, OUTLIER_SHARE, OUTLIER_M = 0.03, 0.05, 3.0

@@ -1,6 +1,6 @@
 """A small survey with a synthetic LiDAR point cloud of known truth, built in code.
 
-The conftest line (spans 300, 250, 350 m; sections S1 = P1-P3, S2 = P3-P4) with one wire, Drake, designed at
+The conftest line (spans 300, 250, 350 m; sections A:P1-P3 and A:P3-P4) with one wire, Drake, designed at
 30 kN at 15 degC. The truth: section S1 was strung tighter, 33 kN at the survey temperature of 25 degC; S2 holds
 whatever the design stringing gives at 25 degC. The points of each span lie on the exact catenary of the true
 tension (3 cm noise, 5 % outliers, jumper points at the structures), written as LAS/LAZ with laspy.
@@ -26,7 +26,7 @@ XS = [0.0, 300.0, 550.0, 900.0]
 KINDS = ["strain", "suspension", "strain", "strain"]
 SURVEY_C = 25.0
 TRUE_S1_N = 33_000.0
-RETENSIONED = "A:S1"
+RETENSIONED = "A:P1-P3"
 DRAKE_W_N_M = float(bare_weight_n_m(1.628))  # Drake 1.628 kg/m (FIELD.md §5)
 
 

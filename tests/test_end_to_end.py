@@ -45,7 +45,7 @@ def test_geopackage_schema_and_3d(survey):
     assert "run_info" in listed and "sections" in listed
     conductors = result["conductors"]
     assert len(conductors) == 3 * 2 and conductors.geometry.has_z.all()
-    assert set(result["spans"]["section_id"]) == {"A:S1", "A:S2"}
+    assert set(result["spans"]["section_id"]) == {"A:P1-P3", "A:P3-P4"}
 
 
 def test_structures_take_the_sections_of_their_own_line(tmp_path):
@@ -60,8 +60,8 @@ def test_structures_take_the_sections_of_their_own_line(tmp_path):
     structures = routesag.run(write_project(tmp_path))["structures"]
     sections = {(row.line_id, row.structure_id): row.section_id for row in structures.itertuples()}
     # A: one section P1-P3. B: strain at P2 too, so P2 starts B's second section and P3 ends it.
-    assert sections == {("A", "P1"): "A:S1", ("A", "P2"): "A:S1", ("A", "P3"): "A:S1",
-                        ("B", "P1"): "B:S1", ("B", "P2"): "B:S2", ("B", "P3"): "B:S2"}
+    assert sections == {("A", "P1"): "A:P1-P3", ("A", "P2"): "A:P1-P3", ("A", "P3"): "A:P1-P3",
+                        ("B", "P1"): "B:P1-P2", ("B", "P2"): "B:P2-P3", ("B", "P3"): "B:P2-P3"}
 
 
 def test_clearance_on_plane_is_analytic(survey):

@@ -84,8 +84,8 @@ def read_crossings(path):
 def read_surface(path, terrain_path):
     """Open a surface model and measure one span's wire (a level chord over the valid raster) against it."""
     xyz = np.column_stack([np.linspace(X0 - 100.0, X0 + 300.0, 41), np.full(41, Y0 + 298.0), np.full(41, 112.0)])
-    profile = SimpleNamespace(xyz=xyz, span_id="A:P1-P2", load_case="hot", section_id="A:S1",
-                              key=("A:S1", "A:P1-P2", "", "hot"))
+    profile = SimpleNamespace(xyz=xyz, span_id="A:P1-P2", load_case="hot", section_id="A:P1-P2",
+                              key=("A:P1-P2", "A:P1-P2", "", "hot"))
     with TerrainSampler(path) as raster, TerrainSampler(terrain_path) as terrain:
         model = SurfaceModel(raster, terrain, CRS, heights=False, min_height_m=0.5, required_m=3.0,
                              largest_required_m=8.0)

@@ -53,12 +53,12 @@ def test_exceeded_limits_are_listed_and_summarised(survey):
     result = routesag.run(survey)
     exceeded = result["tension_exceedances"]
     # Stringing 30 kN at 15 C is already 21.4 % of 140.1 kN, so -20 C exceeds 20 % in both sections.
-    assert sorted(exceeded["section_id"]) == ["A:S1", "A:S2"]
+    assert sorted(exceeded["section_id"]) == ["A:P1-P3", "A:P3-P4"]
     assert (exceeded["load_case"] == "cold").all() and (exceeded["utilisation"] > 1).all()
     assert (exceeded["percent_rts"] > 20.0).all() and (exceeded["max_percent_rts"] == 20.0).all()
     text = summary_text(result)
     assert "tension limits: 4 checks, 2 exceeded" in text
-    assert "section A:S1 wire A [cold, initial]: 20 % RTS horizontal exceeded" in text
+    assert "section A:P1-P3 wire A [cold, initial]: 20 % RTS horizontal exceeded" in text
     stored = pyogrio.read_dataframe(survey.parent / "out.gpkg", layer="tension_exceedances")
     assert len(stored) == 2
 

@@ -87,7 +87,7 @@ def test_line_ends_say_strain_with_a_forced_column(plain):
 def test_names_read_well_without_line_id(plain):
     result = routesag.run(plain)
     assert result["spans"]["span_id"].tolist() == ["P1-P2", "P2-P3", "P3-P4"]
-    assert result["sections"]["section_id"].tolist() == ["S1"]
+    assert result["sections"]["section_id"].tolist() == ["P1-P4"]  # named by its end strain structures
     assert set(result["conductors"]["wire"]) == {"conductor"}
     text = summary_text(result)
     assert "line:" not in text and "wire line" not in text

@@ -71,7 +71,7 @@ def test_survey_team_data_runs_without_editing_the_files(tmp_path):
                                atol=1e-9)
     # the wire hangs at the attachment less the string, all in metres: attach_z = ground + height
     np.testing.assert_allclose(structures["attach_z_m"] - structures["ground_z_m"], structures["attach_height_m"])
-    assert result["sections"]["section_id"].tolist() == ["S1", "S2"]  # T-1..T-3, T-3..T-5
+    assert result["sections"]["section_id"].tolist() == ["T-1-T-3", "T-3-T-5"]  # named by their end strain structures
     info = dict(zip(result["run_info"]["key"], result["run_info"]["value"]))
     noted = " ".join(str(v) for v in info.values())
     assert "'Easting', 'Northing'" in noted and "separator ';'" in noted

@@ -72,7 +72,7 @@ def test_uneven_adjacent_spans_warned(tmp_path, xs, pairs):
     (message,) = found
     assert message.startswith(f"{len(pairs)} pair(s) of adjacent spans")
     for pair in pairs:
-        assert f"A:S1: {pair}" in message
+        assert f"A:P1-P4: {pair}" in message
 
 
 def test_adjacent_span_ratio_is_symmetric():

@@ -26,6 +26,13 @@ units_option = click.option("--units", type=click.Choice(["si", "imperial"]), de
 fail_on_violation_option = click.option("--fail-on-violation", is_flag=True,
                                         help="Exit with code 3 when any clearance violation is found.")
 
+workers_option = click.option("--workers", type=click.IntRange(min=1), default=None, metavar="N",
+                              help="Worker processes for the tension sections (1: in this process). "
+                                   "Default: [engine] workers, else one per core.")
+scheduler_option = click.option("--scheduler", default=None, metavar="ADDRESS",
+                                help="Run the sections on a dask cluster: tcp://HOST:PORT, or local:N to start "
+                                     "N local workers. Default: [engine] scheduler.")
+
 
 class CommandError(click.ClickException):
     """A library error shown as one clean message with its exit code."""

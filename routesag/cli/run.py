@@ -2,7 +2,8 @@
 import click
 
 from routesag.cli.options import (
-    all_violations_option, fail_on_violation_option, finish, handle_errors, out_option, units_option,
+    all_violations_option, fail_on_violation_option, finish, handle_errors, is_quiet, out_option,
+    scheduler_option, units_option, workers_option,
 )
 
 
@@ -10,12 +11,17 @@ from routesag.cli.options import (
 @click.argument("project", type=click.Path(dir_okay=False))
 @out_option
 @fail_on_violation_option
+@workers_option
+@scheduler_option
 @click.option("--spans", "per_span", is_flag=True, help="Also print the worst clearance of every span.")
 @all_violations_option
 @units_option
 @handle_errors
-def run_command(project, out, fail_on_violation, per_span, all_violations, units):
+def run_command(project, out, fail_on_violation, workers, scheduler, per_span, all_violations, units):
     """Compute conductors and clearances for PROJECT (a TOML project file)."""
     from routesag.api import run
+    from routesag.progress import section_progress
 
-    finish(run(project, out=out), fail_on_violation, per_span, all_violations, units)
+    with section_progress(is_quiet()) as on_section:
+        result = run(project, out=out, workers=workers, scheduler=scheduler, on_section=on_section)
+    finish(result, fail_on_violation, per_span, all_violations, units)

@@ -16,7 +16,7 @@ def stages_command():
 
     for name, stage in sorted(available_stages().items(), key=chain_order):
         origin = "built-in" if name in DEFAULT_CHAIN else "plugin"
-        click.echo(f"{name}  [{origin}]")
+        click.echo(f"{name}  [{origin}{', per section' if stage.per_section else ''}]")
         click.echo(f"    requires: {', '.join(stage.requires) or '-'}")
         click.echo(f"    provides: {', '.join(stage.provides) or '-'}")
         if stage.description:

@@ -33,8 +33,9 @@ LONG_SPAN_M = 1500.0
 ADJACENT_SPAN_RATIO = 2.0
 #: Smallest band along the terrain edge in which a structure is flagged [m].
 EDGE_BAND_MIN_M = 10.0
-#: Most stations one load case may ask for; more is a typing error in station_m, not a finer answer.
-MAX_STATIONS = 10_000_000
+#: Most stations one load case may ask for in one tension section (1,000 km at 1 m): more is a typing error in
+#: station_m, not a finer answer. Per section, as sections are the unit of work; a route has no length cap.
+MAX_SECTION_STATIONS = 1_000_000
 #: Items named in one warning; the rest are counted.
 MAX_LISTED = 10
 
@@ -72,18 +73,21 @@ class CheckSags(Stage):
 
 def check_station_spacing(project, spans) -> None:
     """Refuse a station spacing wider than the shortest span (the span would get no inner station),
-    or so fine that one load case needs more than :data:`MAX_STATIONS` stations.
+    or so fine that one load case needs more than :data:`MAX_SECTION_STATIONS` stations in one tension section.
 
     Raises
     ------
     ProjectError
-        Naming the project file, the key and the shortest span or the station count.
+        Naming the project file, the key and the shortest span or the longest section and its station count.
     """
-    stations = float(spans["span_m"].sum()) / project.station_m
-    if stations > MAX_STATIONS:
+    section_m = spans.groupby("section_id", sort=False)["span_m"].sum()
+    longest, length_m = section_m.idxmax(), float(section_m.max())
+    stations = length_m / project.station_m
+    if stations > MAX_SECTION_STATIONS:
         raise ProjectError(f"project file {project.path}: [clearance] station_m = {project.station_m:g} m asks "
-                           f"for {stations:.3g} stations per load case (at most {MAX_STATIONS:.0e}); use at least "
-                           f"{float(spans['span_m'].sum()) / MAX_STATIONS:.3g} m")
+                           f"for {stations:.3g} stations per load case in tension section {longest} "
+                           f"({length_m:.0f} m; at most {MAX_SECTION_STATIONS:.0e} per section); use at least "
+                           f"{length_m / MAX_SECTION_STATIONS:.3g} m")
     shortest = spans.loc[spans["span_m"].idxmin()]
     if project.station_m > shortest["span_m"]:
         raise ProjectError(f"project file {project.path}: [clearance] station_m = {project.station_m:g} m is "

@@ -54,18 +54,27 @@ def _line_spans(line_id: str, line: pd.DataFrame, problems: list[str]) -> pd.Dat
     for i in np.flatnonzero(span_m < MIN_SPAN_M):
         problems.append(f"{line_label(line_id)}: structures {ids[i]} and {ids[i + 1]} stand at the same spot "
                         f"({span_m[i]:.2f} m apart): zero-length span")
-    strain = acts_as_strain(line)
-    # A span belongs to the section that started at the last strain structure before it.
-    section_no = np.cumsum(strain[:-1])
+    section_ids = _section_ids(line_id, ids, acts_as_strain(line))
     return pd.DataFrame({
         "span_id": [f"{line_prefix(line_id)}{a}-{b}" for a, b in zip(ids[:-1], ids[1:])],
         "line_id": line_id,
         "from_id": ids[:-1], "to_id": ids[1:],
-        "section_id": [f"{line_prefix(line_id)}S{n}" for n in section_no],
+        "section_id": section_ids,
         "x0": x[:-1], "y0": y[:-1], "z0": z[:-1], "x1": x[1:], "y1": y[1:], "z1": z[1:],
         "span_m": span_m, "dz_m": np.diff(z),
         "bearing_deg": np.degrees(np.arctan2(dx, dy)) % 360.0,
     })
+
+
+def _section_ids(line_id: str, ids: np.ndarray, strain: np.ndarray) -> np.ndarray:
+    """Each span's tension section, named by its end strain structures (``A:T12-T19``).
+
+    Named by structures, not by count, so a section keeps its id when the line file starts elsewhere.
+    """
+    bounds = np.flatnonzero(strain)  # first and last structures always count as strain
+    names = np.array([f"{line_prefix(line_id)}{ids[a]}-{ids[b]}" for a, b in zip(bounds[:-1], bounds[1:])], dtype=object)
+    # A span belongs to the section that started at the last strain structure before it.
+    return names[np.cumsum(strain[:-1]) - 1]
 
 
 def summarise_sections(spans: pd.DataFrame) -> pd.DataFrame:

@@ -82,6 +82,7 @@ def test_stages_lists_builtin_and_plugin(runner, plugin):
     result = runner.invoke(main, ["stages"])
     assert result.exit_code == 0, result.output
     assert "read_inputs  [built-in]" in result.output
+    assert "build_conductors  [built-in, per section]" in result.output
     assert "count_violations  [plugin]" in result.output
     assert "requires: violations" in result.output
     assert "broken_one  [plugin]" in result.output and "failed to load" in result.output

@@ -97,7 +97,7 @@ def test_bad_temperature_range_exits_2(survey, args):
 
 def test_terminal_table_fits_the_width(survey):
     text = invoke(survey)
-    assert "section A:S1, wire A, initial" in text and "-20" in text and "50" in text
+    assert "section A:P1-P3, wire A, initial" in text and "-20" in text and "50" in text
     table = csv_of(survey)
     for width in (60, 80, 120):
         lines = terminal_text(table, "si", width=width).splitlines()

@@ -92,19 +92,19 @@ def test_a_section_without_a_good_fit_falls_back_to_the_design_stringing(tmp_pat
     write_las(tmp_path / "survey.laz", x[keep], y[keep], z[keep], cls[keep])
     result = routesag.run(project)
     source = result["sections"].set_index("section_id")["tension_source"]
-    assert source[RETENSIONED] == "as_found" and source["A:S2"] == "design"
+    assert source[RETENSIONED] == "as_found" and source["A:P3-P4"] == "design"
     hot = result["conductors"].query("load_case == 'hot'").set_index("section_id")
-    assert hot.loc["A:S2", "tension_source"] == "design"
+    assert hot.loc["A:P3-P4", "tension_source"] == "design"
     fits = result["wire_fits"].set_index("section_id")
-    assert fits.loc["A:S2", "quality"] == "failed" and "too few points" in fits.loc["A:S2", "reason"]
+    assert fits.loc["A:P3-P4", "quality"] == "failed" and "too few points" in fits.loc["A:P3-P4", "reason"]
     warnings = " ".join(result["run_info"].query("key.str.startswith('warning')", engine="python")["value"])
-    assert "tension section A:S2, wire A: no good wire fit; load cases start from the design stringing" in warnings
+    assert "tension section A:P3-P4, wire A: no good wire fit; load cases start from the design stringing" in warnings
     # the tension there is the design stringing's own change of state
     data = compute(project, ["wire_spans", "sections"])
-    section = data["sections"].set_index("section_id", drop=False).loc["A:S2"]
-    spans = data["wire_spans"].query("section_id == 'A:S2'")
+    section = data["sections"].set_index("section_id", drop=False).loc["A:P3-P4"]
+    spans = data["wire_spans"].query("section_id == 'A:P3-P4'")
     expected = section_tensions(section, load_project(project), spans=spans)[0]["horizontal_tension_n"]
-    np.testing.assert_allclose(hot.loc["A:S2", "horizontal_tension_n"], expected, rtol=1e-9)
+    np.testing.assert_allclose(hot.loc["A:P3-P4", "horizontal_tension_n"], expected, rtol=1e-9)
 
 
 def test_fixed_attachments_and_run_info_counts(tmp_path):

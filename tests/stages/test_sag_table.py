@@ -31,7 +31,8 @@ def table(survey):
 def test_rows_per_section_span_and_temperature(table):
     assert sorted(table["temperature_c"].unique()) == list(TEMPERATURES)
     counts = table.groupby(["section_id", "kind"]).size().to_dict()
-    assert counts == {("A:S1", "ruling"): 15, ("A:S1", "span"): 30, ("A:S2", "ruling"): 15, ("A:S2", "span"): 15}
+    assert counts == {("A:P1-P3", "ruling"): 15, ("A:P1-P3", "span"): 30, ("A:P3-P4", "ruling"): 15,
+                      ("A:P3-P4", "span"): 15}
     assert (table["condition"] == "initial").all()
     assert table[table.kind == "span"]["span_id"].unique().tolist() == ["A:P1-P2", "A:P2-P3", "A:P3-P4"]
 
