@@ -28,6 +28,11 @@ class Conductor:
     resistance_75c_ohm_m: float | None = None
     two_material: TwoMaterialConductor | None = None   # model = "two_material": aluminium and core members
 
+    @property
+    def model(self) -> str:
+        """Stretch model used: ``"two_material"`` (aluminium and core members) or ``"linear"``."""
+        return "linear" if self.two_material is None else "two_material"
+
     def law(self, reference_temperature_c: float, creep_strain: float = 0.0):
         """Stretch law (:mod:`routesag.physics.two_material`): linear composite, or the two members.
 

@@ -93,8 +93,9 @@ FIELDS_TABLE = {name: Key(str, None, doc=f"the file's name of field {name}")
 CONDUCTOR_OPTIONAL_KEYS = {
     "resistance_25c_ohm_km": Key(NUMBER, None, positive, "AC resistance at 25 degC [ohm/km]"),
     "resistance_75c_ohm_km": Key(NUMBER, None, positive, "AC resistance at 75 degC [ohm/km]"),
-    "model": Key(str, "linear", one_of("linear", "two_material"),
-                 "linear-elastic composite, or aluminium and core as two members (knee point)"),
+    "model": Key(str, "auto", one_of("auto", "linear", "two_material"),
+                 "linear-elastic composite, or aluminium and core as two members (knee point); auto: two "
+                 "members when the core and aluminium data are known (catalog ACSR), else linear"),
     "aluminium_area_mm2": Key(NUMBER, None, positive, "area of the aluminium layers [mm2]"),
     "aluminium_modulus_gpa": Key(NUMBER, None, positive, "final modulus of the aluminium layers [GPa]"),
     "aluminium_expansion_per_c": Key(NUMBER, None, positive, "expansion coefficient of the aluminium [1/degC]"),
@@ -250,7 +251,7 @@ REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases"}
 TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
 #: Ways to give the final (crept) condition; at most one per stringing table.
 CREEP_KEYS = ("creep_allowance_c", "creep_strain", "final_horizontal_tension_kn")
-#: Members of a two-material conductor, required with model = "two_material".
+#: Members of a two-material conductor, required with model = "two_material" (auto: all known picks it).
 MEMBER_KEYS = ("aluminium_area_mm2", "aluminium_modulus_gpa", "aluminium_expansion_per_c", "core_area_mm2",
                "core_modulus_gpa", "core_expansion_per_c")
 

@@ -146,7 +146,8 @@ def _complete_conductor(where: str, given: dict, problems) -> dict:
                 out[key] = value
         out["name"] = entry.label
         out["source"] = f"catalog ({entry.source})" + (f"; given: {', '.join(explicit)}" if explicit else "")
-    if out.get("model") == "two_material":
+    out["model"] = _resolve_model(out, given)
+    if out["model"] == "two_material":
         members = [k for k in MEMBER_KEYS if out.get(k) is None]
         if members:
             problems.append(f"{where}: model = 'two_material' needs {', '.join(map(repr, members))} "
@@ -156,6 +157,24 @@ def _complete_conductor(where: str, given: dict, problems) -> dict:
         problems.append(f"{where}: missing {', '.join(map(repr, missing))}: give name = \"...\" "
                         f"(a catalog conductor) or all of {', '.join(PROPERTY_FIELDS)}")
     return out
+
+
+def _resolve_model(out: dict, given: dict) -> str:
+    """The stretch model of a conductor: as given, or for ``model = "auto"`` chosen from its data.
+
+    Auto picks the two members when all their data are known (a catalog ACSR, or given) and linear otherwise
+    (AAC, AAAC, a conductor given without core data). An explicit ``modulus_gpa`` or ``expansion_per_c``
+    without any member key asks for the linear composite with those values, so auto keeps it linear rather
+    than ignore them.
+    """
+    model = out.get("model", "auto")
+    if model != "auto":
+        return model
+    linear_given = any(given.get(k) is not None for k in ("modulus_gpa", "expansion_per_c"))
+    members_given = any(given.get(k) is not None for k in MEMBER_KEYS)
+    if all(out.get(k) is not None for k in MEMBER_KEYS) and (members_given or not linear_given):
+        return "two_material"
+    return "linear"
 
 
 def _conductor_from(c: dict) -> Conductor:
