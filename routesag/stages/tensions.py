@@ -197,13 +197,13 @@ def condition_laws(where, carry: StateCarrier, h0_n, conductor, stringing) -> di
         try:
             strain = creep_strain_for_final_tension(
                 lambda eps: carry.tension_n(h0_n, carry.bare_n_m, carry.stringing_c, initial,
-                                            conductor.law(stringing.temperature_c, eps)),
+                                            conductor.law(stringing.temperature_c, eps, final=True)),
                 stringing.final_horizontal_tension_kn * 1e3, h0_n)
         except SolveError as exc:
             raise SolveError(f"{where}: [stringing] final_horizontal_tension_kn: {exc}") from None
     laws = {"initial": initial}
     if strain is not None:
-        laws["final"] = conductor.law(stringing.temperature_c, strain)
+        laws["final"] = conductor.law(stringing.temperature_c, strain, final=True)
     return laws
 
 

@@ -44,3 +44,33 @@ def test_auto_model_with_only_a_creep_allowance_solves_the_final_condition(tmp_p
     assert rows["final_30"]["horizontal_tension_n"] < 0.97 * rows["initial_30"]["horizontal_tension_n"]
     # the crept aluminium goes slack at a lower temperature than the new one
     assert rows["final_30"]["knee_point_final_c"] < rows["final_30"]["knee_point_initial_c"]
+
+
+def curves_table(aluminium, core):
+    return f"\n[conductor.stress_strain]\naluminium_initial = {list(aluminium)}\ncore_initial = {list(core)}"
+
+
+def test_project_stress_strain_curves_that_are_linear_change_nothing(tmp_path):
+    from tests.physics.test_stress_strain import LINEAR
+
+    cases = ['name = "hot"\ntemperature_c = 150.0', 'name = "cold"\ntemperature_c = -20.0']
+    plain = project_file(tmp_path, STRINGING, cases, conductor='name = "Drake"')
+    curved = project_file(tmp_path, STRINGING, cases, conductor='name = "Drake"' + curves_table(
+        LINEAR["aluminium_initial"], LINEAR["core_initial"]))
+    assert curved.conductor.two_material.curves is not None
+    for a, b in zip(section_tensions(section(300.0), plain), section_tensions(section(300.0), curved)):
+        assert b["horizontal_tension_n"] == pytest.approx(a["horizontal_tension_n"], rel=1e-9)
+
+
+@pytest.mark.parametrize("conductor, message", [
+    ('name = "Drake"' + curves_table((5.0, 400.0, 0, 0, 0), (0, 267.0, 0, 0, 0)),
+     r"\[conductor.stress_strain\]: aluminium_initial = .* a0 = 0"),
+    ('name = "Drake"\nmodel = "linear"' + curves_table((0, 400.0, 0, 0, 0), (0, 267.0, 0, 0, 0)),
+     "need the two-material model"),
+    ('name = "Drake"\n[conductor.stress_strain]\naluminium_initial = [0, 400.0, 0, 0, 0]', "missing 'core_initial'"),
+])
+def test_bad_stress_strain_curves_are_refused(tmp_path, conductor, message):
+    from routesag.errors import ProjectError
+
+    with pytest.raises(ProjectError, match=message):
+        project_file(tmp_path, STRINGING, ['name = "hot"\ntemperature_c = 80.0'], conductor=conductor)
