@@ -109,6 +109,12 @@ class CurveLaw:
         return float(self.curves.area_m2 * (_slope_pa(self._aluminium, 0.0) + _slope_pa(self._core, 0.0)))
 
     @property
+    def least_stiffness_n(self) -> float:
+        """The core's smallest tangent EA (at zero strain or past the curve) [N]: the core works alone above the knee."""
+        slopes = _slope_pa(self._core, np.array([0.0, CURVE_STRAIN_MAX]))
+        return float(self.curves.area_m2 * np.min(slopes))
+
+    @property
     def expansion_per_c(self) -> float:
         """Expansion of both members together, weighted by their tangent stiffness at zero strain [1/C]."""
         c, alu, core = self.conductor, _slope_pa(self._aluminium, 0.0), _slope_pa(self._core, 0.0)

@@ -65,6 +65,11 @@ class LinearLaw:
     expansion_per_c: float           # [1/C]
     reference_temperature_c: float   # [C]
 
+    @property
+    def least_stiffness_n(self) -> float:
+        """Smallest EA the law ever works with [N]: bounds the physical tensions (state_change)."""
+        return self.axial_stiffness_n
+
     def stretch_ratio(self, tension_n, temperature_c):
         """Stretched over unstressed length at the reference temperature [-]."""
         growth = 1.0 + self.expansion_per_c * (np.asarray(temperature_c, dtype=float) - self.reference_temperature_c)
@@ -142,6 +147,11 @@ class TwoMaterialLaw:
     @property
     def expansion_per_c(self) -> float:
         return self.conductor.composite_expansion_per_c
+
+    @property
+    def least_stiffness_n(self) -> float:
+        """The core's EA [N]: above the knee it works alone, so a strain of 100 % comes at this tension."""
+        return self.conductor.core_stiffness_n
 
     def _growth(self, temperature_c):
         """Unstressed length of core and aluminium at ``t`` over ``L0`` [-]."""
