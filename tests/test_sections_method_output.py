@@ -16,3 +16,6 @@ def test_sections_and_run_info_carry_method_and_ruling_span(survey):
     assert ruling == {str(r.section_id): round(r.ruling_span_m, 3)
                       for r in sections.drop_duplicates("section_id").itertuples()}
     assert set(json.loads(info["note.stringing_method"]).values()) == {"section"}
+    # the survey's conductor is given without core data: model = "auto" takes the linear composite
+    assert set(sections["conductor_model"]) == {"linear"}
+    assert set(json.loads(info["note.conductor_model"]).values()) == {"linear"}

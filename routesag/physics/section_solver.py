@@ -98,7 +98,7 @@ def section_change_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, tempe
         return section_unstressed_length_by_law(spans2, dz2, tension_n, weight2_n_m, temperature2_c, law2) - target_m
 
     low = weight2_n_m * float(np.max(spans2)) / (2.0 * _MAX_HALF_SPAN_ANGLE)
-    high = float(law2.axial_stiffness_n)
+    high = float(law2.least_stiffness_n)  # H < T_mean < EA (the core's alone for a two-material conductor)
     if not residual(low) > 0 > residual(high):
         raise SolveError(f"section change of state has no solution with a horizontal tension between {low:.4g} N "
                          f"and EA = {high:.4g} N (state 1 H = {tension1_n:g} N, t = {temperature1_c:g} C; "

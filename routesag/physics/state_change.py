@@ -154,15 +154,16 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
                     weight2_n_m=weight2_n_m, axial_stiffness_n=axial_stiffness_n)
     if not (law1.stretch_ratio(0.0, temperature1_c) > 0 and law2.stretch_ratio(0.0, temperature2_c) > 0):
         raise SolveError(f"change of state impossible: thermal strain shrinks the wire to nothing ({describe})")
-    if mean_tension(span_m, 0.0, tension1_n, weight1_n_m) >= law1.axial_stiffness_n:
+    if mean_tension(span_m, 0.0, tension1_n, weight1_n_m) >= law1.least_stiffness_n:
         raise SolveError(f"change of state impossible: the mean tension of state 1 is not below EA = "
-                         f"{law1.axial_stiffness_n:.4g} N, a strain of 100 % or more ({describe})")
+                         f"{law1.least_stiffness_n:.4g} N (the core's for a two-material conductor), a strain "
+                         f"of 100 % or more ({describe})")
     target_m = _unstressed_length(span_m, tension1_n, weight1_n_m, temperature1_c, law1)
 
     def residual(tension_n):
         return _unstressed_length(span_m, tension_n, weight2_n_m, temperature2_c, law2) - target_m
 
-    low_limit, high_limit = physical_tension_range(span_m, weight2_n_m, axial_stiffness_n, describe)
+    low_limit, high_limit = physical_tension_range(span_m, weight2_n_m, float(law2.least_stiffness_n), describe)
     guess = parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
                                       temperature2_c, axial_stiffness_n, 1.0, law2.expansion_per_c)
     low, high = _bracket(residual, float(np.clip(guess, low_limit, high_limit)), low_limit, high_limit)

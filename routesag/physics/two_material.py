@@ -46,6 +46,8 @@ from scipy.optimize import brentq
 
 from routesag.errors import SolveError
 
+from .stress_strain import CurveLaw, StressStrainCurves
+
 __all__ = ["LinearLaw", "TwoMaterialConductor", "TwoMaterialLaw", "knee_point_temperature_c",
            "creep_strain_for_final_tension"]
 
@@ -62,6 +64,11 @@ class LinearLaw:
     axial_stiffness_n: float         # EA [N]
     expansion_per_c: float           # [1/C]
     reference_temperature_c: float   # [C]
+
+    @property
+    def least_stiffness_n(self) -> float:
+        """Smallest EA the law ever works with [N]: bounds the physical tensions (state_change)."""
+        return self.axial_stiffness_n
 
     def stretch_ratio(self, tension_n, temperature_c):
         """Stretched over unstressed length at the reference temperature [-]."""
@@ -83,6 +90,7 @@ class TwoMaterialConductor:
     core_modulus_pa: float
     core_expansion_per_c: float
     aluminium_compression_pa: float = 0.0
+    curves: StressStrainCurves | None = None   # the maker's curves; when given they replace the moduli
 
     @property
     def aluminium_stiffness_n(self) -> float:
@@ -113,8 +121,14 @@ class TwoMaterialConductor:
         """
         return self.composite_expansion_per_c * allowance_c * self.axial_stiffness_n / self.aluminium_stiffness_n
 
-    def law(self, creep_strain: float = 0.0, reference_temperature_c: float = 20.0) -> TwoMaterialLaw:
-        """The stretch law of this conductor in one condition (``creep_strain`` 0: initial)."""
+    def law(self, creep_strain: float = 0.0, reference_temperature_c: float = 20.0, final: bool = False):
+        """The stretch law of this conductor in one condition (``creep_strain`` 0: initial).
+
+        With :attr:`curves` a :class:`~.stress_strain.CurveLaw` (``final``: the final curves), else the
+        linear members (:class:`TwoMaterialLaw`, where ``final`` changes nothing).
+        """
+        if self.curves is not None:
+            return CurveLaw(self, self.curves, bool(final), float(creep_strain), float(reference_temperature_c))
         return TwoMaterialLaw(self, float(creep_strain), float(reference_temperature_c))
 
 
@@ -133,6 +147,11 @@ class TwoMaterialLaw:
     @property
     def expansion_per_c(self) -> float:
         return self.conductor.composite_expansion_per_c
+
+    @property
+    def least_stiffness_n(self) -> float:
+        """The core's EA [N]: above the knee it works alone, so a strain of 100 % comes at this tension."""
+        return self.conductor.core_stiffness_n
 
     def _growth(self, temperature_c):
         """Unstressed length of core and aluminium at ``t`` over ``L0`` [-]."""

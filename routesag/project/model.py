@@ -43,13 +43,18 @@ class Conductor:
     resistance_75c_ohm_m: float | None = None
     two_material: TwoMaterialConductor | None = None   # model = "two_material": aluminium and core members
 
-    def law(self, reference_temperature_c: float, creep_strain: float = 0.0):
+    @property
+    def model(self) -> str:
+        """Stretch model used: ``"two_material"`` (aluminium and core members) or ``"linear"``."""
+        return "linear" if self.two_material is None else "two_material"
+
+    def law(self, reference_temperature_c: float, creep_strain: float = 0.0, final: bool = False):
         """Stretch law (:mod:`routesag.physics.two_material`): linear composite, or the two members.
 
         ``creep_strain`` (the aluminium's, final condition) needs the two-material model.
         """
         if self.two_material is not None:
-            return self.two_material.law(creep_strain, reference_temperature_c)
+            return self.two_material.law(creep_strain, reference_temperature_c, final)
         if creep_strain:
             raise ValueError("a creep strain needs the two-material model")
         return LinearLaw(self.modulus_pa * self.area_m2, self.expansion_per_c, reference_temperature_c)

@@ -4,6 +4,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any, Callable
 
+from routesag.physics.stress_strain import curve_problem
 from routesag.physics.clearance_rules import DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADDER_PER_KV_M, DEFAULT_REQUIRED_M
 
 REQUIRED = object()
@@ -93,13 +94,28 @@ FIELDS_TABLE = {name: Key(str, None, doc=f"the file's name of field {name}")
                 for name in ("structure_id", "seq", "line_id", "kind", "attach_height_m", "ground_z_m",
                              "insulator_m", "category", "required_m", "width_m")}
 
+def stress_strain_curve(value):
+    """Five numbers a0..a4 of a usable curve (:func:`routesag.physics.stress_strain.curve_problem`)."""
+    if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value):
+        return "must be a list of numbers"
+    return curve_problem([float(v) for v in value])
+
+
+#: [conductor.stress_strain]: the maker's polynomial curves of the two members (model = "two_material").
+STRESS_STRAIN_TABLE = {
+    f"{member}_{condition}": Key(list, None, stress_strain_curve,
+                                 f"{member} {condition} curve: a0..a4 of stress [MPa, over the conductor's area] "
+                                 f"= sum a_i e^i, e the strain [%]")
+    for member in ("aluminium", "core") for condition in ("initial", "final")}
+
 #: [conductor]: AC resistances for the heat balance (load cases given by current_a) and, for a composite
 #: conductor, its two members for model = "two_material".
 CONDUCTOR_OPTIONAL_KEYS = {
     "resistance_25c_ohm_km": Key(NUMBER, None, positive, "AC resistance at 25 degC [ohm/km]"),
     "resistance_75c_ohm_km": Key(NUMBER, None, positive, "AC resistance at 75 degC [ohm/km]"),
-    "model": Key(str, "linear", one_of("linear", "two_material"),
-                 "linear-elastic composite, or aluminium and core as two members (knee point)"),
+    "model": Key(str, "auto", one_of("auto", "linear", "two_material"),
+                 "linear-elastic composite, or aluminium and core as two members (knee point); auto: two "
+                 "members when the core and aluminium data are known (catalog ACSR), else linear"),
     "aluminium_area_mm2": Key(NUMBER, None, positive, "area of the aluminium layers [mm2]"),
     "aluminium_modulus_gpa": Key(NUMBER, None, positive, "final modulus of the aluminium layers [GPa]"),
     "aluminium_expansion_per_c": Key(NUMBER, None, positive, "expansion coefficient of the aluminium [1/degC]"),
@@ -108,6 +124,7 @@ CONDUCTOR_OPTIONAL_KEYS = {
     "core_area_mm2": Key(NUMBER, None, positive, "area of the core [mm2]"),
     "core_modulus_gpa": Key(NUMBER, None, positive, "modulus of the core [GPa]"),
     "core_expansion_per_c": Key(NUMBER, None, positive, "expansion coefficient of the core [1/degC]"),
+    "stress_strain": Key(dict, {}, doc="the maker's polynomial stress-strain curves", table=STRESS_STRAIN_TABLE),
 }
 
 #: [[load_cases]]: the weather of a case given by its current (IEEE Std 738 heat balance).
@@ -287,7 +304,7 @@ REQUIRED_TABLES = {"inputs", "conductor", "stringing", "load_cases"}
 TENSION_KEYS = ("horizontal_tension_kn", "tension_percent_rts", "catenary_m")
 #: Ways to give the final (crept) condition; at most one per stringing table.
 CREEP_KEYS = ("creep_allowance_c", "creep_strain", "final_horizontal_tension_kn")
-#: Members of a two-material conductor, required with model = "two_material".
+#: Members of a two-material conductor, required with model = "two_material" (auto: all known picks it).
 MEMBER_KEYS = ("aluminium_area_mm2", "aluminium_modulus_gpa", "aluminium_expansion_per_c", "core_area_mm2",
                "core_modulus_gpa", "core_expansion_per_c")
 

@@ -9,12 +9,16 @@ from routesag.catalog import PROPERTY_FIELDS, close_matches, find_conductor
 from routesag.errors import ProjectError, cut
 from routesag.physics.clearance_rules import DEFAULT_REQUIRED_M
 from routesag.physics.loads import G
+from routesag.physics.stress_strain import StressStrainCurves
 from routesag.physics.two_material import TwoMaterialConductor
 from routesag.project.model import Conductor
 from routesag.project.point_cloud_checks import check_point_cloud
 from routesag.project.schema import (
-    ARRAY_TABLES, CREEP_KEYS, MEMBER_KEYS, NUMBER, REQUIRED, REQUIRED_TABLES, SCHEMA, TENSION_KEYS, Key,
+    ARRAY_TABLES, CREEP_KEYS, MEMBER_KEYS, NUMBER, REQUIRED, REQUIRED_TABLES, SCHEMA, STRESS_STRAIN_TABLE,
+    TENSION_KEYS, Key,
 )
+
+STRESS_STRAIN_KEYS = tuple(STRESS_STRAIN_TABLE)
 
 
 def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[str]]:
@@ -148,16 +152,54 @@ def _complete_conductor(where: str, given: dict, problems) -> dict:
                 out[key] = value
         out["name"] = entry.label
         out["source"] = f"catalog ({entry.source})" + (f"; given: {', '.join(explicit)}" if explicit else "")
-    if out.get("model") == "two_material":
+    out["model"] = _resolve_model(out, given)
+    if out["model"] == "two_material":
         members = [k for k in MEMBER_KEYS if out.get(k) is None]
         if members:
             problems.append(f"{where}: model = 'two_material' needs {', '.join(map(repr, members))} "
                             f"(the catalog holds them for ACSR)")
+    _check_curves(where, out, problems)
     missing = [k for k in PROPERTY_FIELDS if out.get(k) is None]
     if missing:
         problems.append(f"{where}: missing {', '.join(map(repr, missing))}: give name = \"...\" "
                         f"(a catalog conductor) or all of {', '.join(PROPERTY_FIELDS)}")
     return out
+
+
+def _curves_given(table: dict) -> list[str]:
+    return [k for k, v in (table.get("stress_strain") or {}).items() if v is not None]
+
+
+def _check_curves(where: str, out: dict, problems) -> None:
+    """Stress-strain curves belong to the two-material model and need both initial curves."""
+    given = _curves_given(out)
+    if not given:
+        return
+    if out["model"] != "two_material":
+        problems.append(f"{where}: stress_strain curves ({', '.join(given)}) need the two-material model: "
+                        f"set model = \"two_material\" with the members' areas and expansions")
+    missing = [k for k in ("aluminium_initial", "core_initial") if k not in given]
+    if missing:
+        problems.append(f"{where}.stress_strain: missing {', '.join(map(repr, missing))} (with any curve, "
+                        f"both initial curves are needed)")
+
+
+def _resolve_model(out: dict, given: dict) -> str:
+    """The stretch model of a conductor: as given, or for ``model = "auto"`` chosen from its data.
+
+    Auto picks the two members when all their data are known (a catalog ACSR, or given) and linear otherwise
+    (AAC, AAAC, a conductor given without core data). An explicit ``modulus_gpa`` or ``expansion_per_c``
+    without any member key asks for the linear composite with those values, so auto keeps it linear rather
+    than ignore them.
+    """
+    model = out.get("model", "auto")
+    if model != "auto":
+        return model
+    linear_given = any(given.get(k) is not None for k in ("modulus_gpa", "expansion_per_c"))
+    members_given = any(given.get(k) is not None for k in MEMBER_KEYS) or bool(_curves_given(given))
+    if all(out.get(k) is not None for k in MEMBER_KEYS) and (members_given or not linear_given):
+        return "two_material"
+    return "linear"
 
 
 def _conductor_from(c: dict) -> Conductor:
@@ -177,7 +219,16 @@ def _two_material_from(c: dict) -> TwoMaterialConductor | None:
         aluminium_area_m2=c["aluminium_area_mm2"] / 1e6, aluminium_modulus_pa=c["aluminium_modulus_gpa"] * 1e9,
         aluminium_expansion_per_c=c["aluminium_expansion_per_c"], core_area_m2=c["core_area_mm2"] / 1e6,
         core_modulus_pa=c["core_modulus_gpa"] * 1e9, core_expansion_per_c=c["core_expansion_per_c"],
-        aluminium_compression_pa=c["aluminium_compression_mpa"] * 1e6)
+        aluminium_compression_pa=c["aluminium_compression_mpa"] * 1e6, curves=_curves_from(c))
+
+
+def _curves_from(c: dict) -> StressStrainCurves | None:
+    """The maker's curves (their stresses over the conductor's area), None when not given."""
+    if not _curves_given(c):
+        return None
+    table = c["stress_strain"]
+    return StressStrainCurves(area_m2=c["area_mm2"] / 1e6, **{
+        k: None if table.get(k) is None else tuple(float(v) for v in table[k]) for k in STRESS_STRAIN_KEYS})
 
 
 def _resistances_from(c: dict) -> dict:

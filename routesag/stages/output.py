@@ -99,14 +99,16 @@ def spans_layer(spans, crs) -> gpd.GeoDataFrame:
 def sections_layer(sections, tensions) -> pd.DataFrame:
     """Tension sections with the stringing tension used and, in limits mode, the limit that set it.
 
-    Also the stringing method (change of state of the section or on its ruling span, ``ruling_span_m``) and,
-    for a two-material conductor, the knee-point temperature of each condition (bare wire).
+    Also the stringing method (change of state of the section or on its ruling span, ``ruling_span_m``),
+    the conductor's stretch model (``conductor_model``: linear or two_material) and, for a two-material
+    conductor, the knee-point temperature of each condition (bare wire).
     """
     keys = ["section_id"] + (["wire"] if "wire" in tensions.columns else [])
     design = tensions.groupby(keys, sort=False).first().reset_index()
     design["stringing_percent_rts"] = 100.0 * design["stringing_tension_n"] / design["rated_strength_n"]
     columns = ["stringing_tension_n", "stringing_percent_rts", "design_tension_n", "governing_case",
-               "governing_limit", "stringing_method", "knee_point_initial_c", "knee_point_final_c"]
+               "governing_limit", "stringing_method", "conductor_model", "knee_point_initial_c",
+               "knee_point_final_c"]
     columns += [c for c in ("as_found_tension_n", "as_found_spread_percent", "tension_source") if c in design]
     return sections.merge(design[keys + columns], on="section_id", how="left")
 

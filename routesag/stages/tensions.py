@@ -48,6 +48,8 @@ class SolveTensions(Stage):
         rows, problems = [], []
         ctx.notes["stringing_method"] = {w.name: w.stringing.method for _, s in data["sections"].iterrows()
                                          for w in project.line_wires(s["line_id"])}
+        ctx.notes["conductor_model"] = {w.name: w.conductor.model for _, s in data["sections"].iterrows()
+                                        for w in project.line_wires(s["line_id"])}
         ctx.notes["ruling_span_m"] = {str(s["section_id"]): round(float(s["ruling_span_m"]), 3)
                                       for _, s in data["sections"].iterrows()}
         for _, section in data["sections"].iterrows():
@@ -147,7 +149,8 @@ def section_tensions(section, project, conductor=None, stringing=None, spans=Non
     else:
         h0_n = stringing_tension_n(project, conductor, stringing)
     knees = knee_points(carry, h0_n, condition_laws(where, carry, h0_n, conductor, stringing))
-    return [dict(_row(section, case, state, h0_n, conductor, design), stringing_method=stringing.method, **knees)
+    return [dict(_row(section, case, state, h0_n, conductor, design), stringing_method=stringing.method,
+                 conductor_model=conductor.model, **knees)
             for case, state in zip(cases, solve(h0_n).values())]
 
 
@@ -202,13 +205,13 @@ def condition_laws(where, carry: StateCarrier, h0_n, conductor, stringing) -> di
         try:
             strain = creep_strain_for_final_tension(
                 lambda eps: carry.tension_n(h0_n, carry.bare_n_m, carry.stringing_c, initial,
-                                            conductor.law(stringing.temperature_c, eps)),
+                                            conductor.law(stringing.temperature_c, eps, final=True)),
                 stringing.final_horizontal_tension_kn * 1e3, h0_n)
         except SolveError as exc:
             raise SolveError(f"{where}: [stringing] final_horizontal_tension_kn: {exc}") from None
     laws = {"initial": initial}
     if strain is not None:
-        laws["final"] = conductor.law(stringing.temperature_c, strain)
+        laws["final"] = conductor.law(stringing.temperature_c, strain, final=True)
     return laws
 
 

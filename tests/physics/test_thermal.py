@@ -13,8 +13,9 @@ from routesag.physics.thermal import (
 # Drake 26/7 ACSR, D = 28.14 mm, R(25 C) = 7.283e-5 ohm/m, R(75 C) = 8.688e-5 ohm/m, conductor 100 C,
 # air 40 C, wind 0.61 m/s across the line, emissivity and absorptivity 0.8, latitude 30 N, line east-west,
 # 10 June (day 161), 11:00 solar time, clear atmosphere, sea level.
-# Note: FIELD.md §10 recalls emissivity and absorptivity 0.5; with 0.5 the balance gives about 992 A, with 0.8 the
-# printed 1025 A and the printed radiated 39.1 W/m (17.8 D eps [...]), so 0.8 is what the example uses.
+# Doubt, stated plainly: FIELD.md §10 recalls emissivity and absorptivity 0.5. By the formulas 0.5 gives about
+# 992 A; 0.8 gives the printed 1025 A and the printed terms (radiated 39.1 W/m, solar 22.44 W/m), so 0.8 is used.
+# The printed example was not at hand; test_thermal_by_hand.py recomputes every term straight from the formulas.
 DRAKE = ThermalConductor(diameter_m=0.02814, resistance_low_ohm_m=7.283e-5, resistance_high_ohm_m=8.688e-5)
 EXAMPLE = Weather(ambient_c=40.0, wind_speed_m_s=0.61, wind_angle_deg=90.0, elevation_m=0.0, emissivity=0.8,
                   absorptivity=0.8, latitude_deg=30.0, day_of_year=161, solar_hour=11.0, line_azimuth_deg=90.0)

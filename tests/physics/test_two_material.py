@@ -5,6 +5,7 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq, fsolve
 
+from routesag.errors import SolveError
 from routesag.physics.state_change import change_of_state, change_of_state_by_law
 from routesag.physics.two_material import LinearLaw, TwoMaterialConductor, knee_point_temperature_c
 
@@ -130,3 +131,17 @@ def test_knee_outside_the_search_is_nan():
     law = DRAKE.law(0.0, 15.0)
     assert math.isnan(knee_point_temperature_c(lambda t: 1e9, law))
     assert brentq(lambda t: law.knee_tension_n(t), -200, 400) == pytest.approx(15.0)  # knee tension 0 at t_ref
+
+
+def test_physical_tensions_stop_at_the_core_stiffness():
+    # Above the knee the core works alone, so a 100 % strain (the unphysical side of the state equation, issue 9)
+    # comes at the core's EA, not at both members' EA: 3000 m at a mean tension of 2e7 N (between the core's
+    # 1.25e7 N and both members' 3.47e7 N), at 200 C, used to be carried to 250 C on the spurious branch (H fell
+    # while the mean tension rose); it must be refused.
+    law = DRAKE.law(0.0, 15.0)
+    span_m = 3000.0
+    h_n = brentq(lambda h: level_mean_tension(h, W_N_M, span_m) - 2e7, 1000.0, 5000.0)
+    assert DRAKE.core_stiffness_n < 2e7 < DRAKE.axial_stiffness_n
+    with pytest.raises(SolveError, match="not below EA = 1.25e\\+07 N"):
+        change_of_state_by_law(span_m, h_n, W_N_M, 200.0, W_N_M, 250.0, law, law)
+    assert law.least_stiffness_n == DRAKE.core_stiffness_n

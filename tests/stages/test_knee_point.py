@@ -75,7 +75,8 @@ def test_linear_conductor_has_no_knee(tmp_path):
 
 
 @pytest.mark.parametrize("conductor, stringing, message", [
-    ('name = "Drake"', "creep_strain = 4e-4", r"creep_strain is the aluminium's creep.*model = \"two_material\""),
+    ('name = "Drake"\nmodel = "linear"', "creep_strain = 4e-4",
+     r"creep_strain is the aluminium's creep.*model = \"two_material\""),
     ('name = "Drake"\nmodel = "two_material"', "creep_strain = 4e-4\ncreep_allowance_c = 15.0",
      r"at most one of creep_allowance_c, creep_strain, final_horizontal_tension_kn"),
     ('name = "Arbutus"\nmodel = "two_material"', "", r"model = 'two_material' needs 'aluminium_area_mm2'"),

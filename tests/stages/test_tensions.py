@@ -19,8 +19,12 @@ def fahrenheit(temp_f):
     return (temp_f - 32.0) / 1.8
 
 
-def project_file(folder, stringing, cases, conductor='name = "Drake"', extra=""):
-    """A project file with only the settings the tension stage reads (inputs are never opened)."""
+def project_file(folder, stringing, cases, conductor='name = "Drake"\nmodel = "linear"', extra=""):
+    """A project file with only the settings the tension stage reads (inputs are never opened).
+
+    The default conductor is Drake pinned to the linear composite (auto would take its two members): these
+    tests are about the change of state, creep allowance and limits of the linear model.
+    """
     case_text = "".join(f"\n[[load_cases]]\n{body}\n" for body in cases)
     text = textwrap.dedent(f"""
         [inputs]
