@@ -8,6 +8,7 @@ from routesag.io.extents import extent_message
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
+from routesag.stages.terrain import warn_implausible
 
 
 class ReadInputs(Stage):
@@ -23,7 +24,10 @@ class ReadInputs(Stage):
         try:
             original = structures.copy()
             structures, crs, note = to_working_crs(structures, source)
-            structures = locate_attachments(structures, terrain, source, original)
+            try:
+                structures = locate_attachments(structures, terrain, source, original)
+            finally:
+                warn_implausible(ctx, terrain)
         except BaseException:
             terrain.close()
             raise
@@ -62,7 +66,7 @@ def read_and_check(project, ctx=None):
         problems.extend(exc.problems)
     try:
         terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units,
-                                 crs=inputs.get("terrain_crs"))
+                                 crs=inputs.get("terrain_crs"), nodata=inputs.get("terrain_nodata"))
     except DataError as exc:
         problems.extend(exc.problems)
     if problems:

@@ -1,0 +1,81 @@
+"""Inputs that once gave a silently wrong answer: each now gives a documented conversion or a loud warning.
+
+The refusals (exit 2) of the same family are rows of the case table in tests/test_validation.py.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import rasterio
+
+import routesag
+from tests.conftest import write_plane_raster
+from tests.test_validation import edit, good_survey
+
+# Rows and columns of the terrain cells under the middle of the first span (x = X0 + 150, y = Y0 + 200).
+HOLE = (90, 110, 165, 185)
+
+
+def untagged_void(tmp, value, tag=None):
+    """The good survey over a terrain whose void under span 1 holds ``value``; the raster's nodata is ``tag``."""
+    project = good_survey(tmp)
+    write_plane_raster(tmp / "terrain.tif", a=100.0, bx=0.01, cy=0.02, holes=[HOLE], nodata=value)
+    with rasterio.open(tmp / "terrain.tif", "r+") as ds:
+        ds.nodata = tag
+    return project
+
+
+def first_span_status(result):
+    clearance = result["conductors"]
+    return set(clearance.loc[clearance["span_id"] == "A:P1-P2", "status"])
+
+
+@pytest.mark.parametrize("value", [-9999.0, -32768.0, -32767.0, -3.4028235e38, 3.4028235e38, 32767.0, -99999.0])
+def test_untagged_fill_value_is_unknown_with_a_loud_warning(tmp_path, value):
+    result = routesag.run(untagged_void(tmp_path, value))
+    assert first_span_status(result) == {"unknown"}
+    assert len(result["unknown_stretches"]) > 0
+    warnings = [w for w in result.warnings if "READ AS NODATA" in w]
+    assert warnings and "terrain.tif" in warnings[0] and f"{np.float32(value):.10g}" in warnings[0], result.warnings
+    info = dict(zip(result["run_info"]["key"], result["run_info"]["value"]))
+    assert any("READ AS NODATA" in v for k, v in info.items() if k.startswith("warning."))
+
+
+def test_a_fill_value_beside_the_tagged_nodata_is_also_unknown(tmp_path):
+    project = untagged_void(tmp_path, -32768.0, tag=-9999.0)
+    result = routesag.run(project)
+    assert first_span_status(result) == {"unknown"}
+    assert any("-32768" in w for w in result.warnings)
+
+
+def test_declared_nodata_value_inside_the_plausible_range(tmp_path):
+    """A void written as 0 on terrain near 100 m cannot be guessed; [inputs] terrain_nodata = 0 declares it."""
+    project = untagged_void(tmp_path, 0.0)
+    assert first_span_status(routesag.run(project)) == {"clear"}   # undeclared: 0 m is a possible elevation
+    edit(project, 'terrain = "terrain.tif"', 'terrain = "terrain.tif"\nterrain_nodata = 0')
+    result = routesag.run(project)
+    assert first_span_status(result) == {"unknown"}
+    assert not [w for w in result.warnings if "READ AS NODATA" in w]
+
+
+def test_untagged_fill_value_in_the_surface_model(tmp_path):
+    project = good_survey(tmp_path)
+    write_plane_raster(tmp_path / "dsm.tif", a=100.0, bx=0.01, cy=0.02, holes=[HOLE], nodata=-9999.0)
+    with rasterio.open(tmp_path / "dsm.tif", "r+") as ds:
+        ds.nodata = None
+    edit(project, 'terrain = "terrain.tif"', 'terrain = "terrain.tif"\nsurface = "dsm.tif"')
+    result = routesag.run(project)
+    assert "clear" not in first_span_status(result)
+    assert any(w.startswith("surface model") and "dsm.tif" in w and "surface_nodata = -9999" in w
+               for w in result.warnings), result.warnings
+
+
+def test_structure_on_an_untagged_void_is_refused_and_warned(tmp_path):
+    """P1 stands on the fill value: its ground is unknown, so the run stops (naming it) rather than guess."""
+    project = good_survey(tmp_path)
+    write_plane_raster(tmp_path / "terrain.tif", a=100.0, bx=0.01, cy=0.02, holes=[(95, 105, 95, 105)],
+                       nodata=-9999.0)
+    with rasterio.open(tmp_path / "terrain.tif", "r+") as ds:
+        ds.nodata = None
+    with pytest.raises(routesag.DataError, match=r"structure P1: no ground_z_m .*over nodata"):
+        routesag.run(project)
