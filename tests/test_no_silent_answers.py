@@ -9,8 +9,8 @@ import pytest
 import rasterio
 
 import routesag
-from tests.conftest import write_plane_raster
-from tests.test_validation import edit, good_survey
+from tests.conftest import write_plane_raster, write_structures
+from tests.test_validation import KINDS, edit, good_survey, line_xy
 
 # Rows and columns of the terrain cells under the middle of the first span (x = X0 + 150, y = Y0 + 200).
 HOLE = (90, 110, 165, 185)
@@ -79,3 +79,20 @@ def test_structure_on_an_untagged_void_is_refused_and_warned(tmp_path):
         ds.nodata = None
     with pytest.raises(routesag.DataError, match=r"structure P1: no ground_z_m .*over nodata"):
         routesag.run(project)
+
+
+def test_structures_in_web_mercator_give_true_spans(tmp_path):
+    """At 50.5 deg N Web Mercator stretches lengths by sec(50.5) = 1.57; spans must still be 300, 250, 350 m."""
+    project = good_survey(tmp_path)
+    write_structures(tmp_path / "structures.gpkg", line_xy(), kinds=KINDS, crs="EPSG:3857")
+    (tmp_path / "metric").mkdir()
+    metric = routesag.run(good_survey(tmp_path / "metric"))
+    result = routesag.run(project)
+    # The reference run has the same structures in UTM 33N, where X0 lies on the central meridian (k = 0.9996).
+    assert result["spans"]["span_m"].to_numpy() == pytest.approx(metric["spans"]["span_m"].to_numpy(), rel=1e-6)
+    assert result["spans"]["span_m"].to_numpy() == pytest.approx([300.0, 250.0, 350.0], rel=1e-6)
+    assert result["conductors"]["sag_m"].to_numpy() == pytest.approx(metric["conductors"]["sag_m"].to_numpy(),
+                                                                      rel=1e-6)
+    info = dict(zip(result["run_info"]["key"], result["run_info"]["value"]))
+    assert "EPSG:3857 is projected but its scale factor" in info["note.crs_note"]
+    assert "reprojected to EPSG:32633" in info["note.crs_note"]

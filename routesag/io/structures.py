@@ -18,6 +18,7 @@ from pyproj import CRS
 from pyproj.exceptions import CRSError, ProjError
 
 from routesag.errors import DataError
+from routesag.io.crs_checks import MAX_SCALE_DISTORTION, centre_lon_lat, local_conformal_crs, scale_distortion
 from routesag.io.fields import (
     apply_field_map, coordinate_columns, decimal_commas_to_numbers, hint_for_missing, sniff_separator,
 )
@@ -310,22 +311,32 @@ def _check_duplicates(out, labels, where, problems) -> None:
                             "a line needs at least two")
 
 
-def working_crs(crs: CRS, lon_lat_center=None) -> tuple[CRS, str]:
+def working_crs(crs: CRS, lon_lat_center=None, lon_lat_points=None) -> tuple[CRS, str]:
     """A projected CRS in metres for span geometry, and a note saying why.
 
-    Geographic or non-metre CRSs are replaced by the UTM zone of the data's
-    centre (WGS 84), so spans are measured in metres.
+    A projected CRS in metres is kept when its scale factor at the structures
+    (``lon_lat_points``, default the centre) is within
+    :data:`~routesag.io.crs_checks.MAX_SCALE_DISTORTION` of 1. Geographic or
+    non-metre CRSs, and projected ones that distort lengths more (Web Mercator
+    away from the equator), are replaced by a local conformal CRS at the
+    data's centre (see :func:`~routesag.io.crs_checks.local_conformal_crs`),
+    so spans are measured in true metres.
     """
     crs = CRS.from_user_input(crs)
     unit = crs.axis_info[0].unit_name if crs.axis_info else ""
-    if crs.is_projected and unit in ("metre", "meter"):
-        return crs, f"structures CRS {crs.to_string()} used as is (projected, metres)"
     lon, lat = lon_lat_center
-    zone = int((lon + 180) // 6) + 1
-    epsg = (32600 if lat >= 0 else 32700) + zone
-    utm = CRS.from_epsg(epsg)
-    why = "geographic (lat/lon)" if crs.is_geographic else f"horizontal unit {unit!r}"
-    return utm, f"structures CRS {crs.to_string()} is {why}: reprojected to {utm.to_string()} (UTM zone {zone})"
+    if crs.is_projected and unit in ("metre", "meter"):
+        points = lon_lat_points if lon_lat_points is not None else ([lon], [lat])
+        distortion = scale_distortion(crs, *points)
+        if distortion is None or distortion <= MAX_SCALE_DISTORTION:
+            measured = "" if distortion is None else f", scale factor within {100 * distortion:.3g} % of 1"
+            return crs, f"structures CRS {crs.to_string()} used as is (projected, metres{measured})"
+        why = (f"projected but its scale factor at the structures departs from 1 by up to {100 * distortion:.3g} % "
+               f"(more than {100 * MAX_SCALE_DISTORTION:g} %: spans and sags would be wrong)")
+    else:
+        why = "geographic (lat/lon)" if crs.is_geographic else f"horizontal unit {unit!r}"
+    local, name = local_conformal_crs(lon, lat)
+    return local, f"structures CRS {crs.to_string()} is {why}: reprojected to {local.to_string()} ({name})"
 
 
 def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, CRS, str]:
@@ -353,8 +364,7 @@ def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, 
                          f"({x:.6g}, {y:.6g}) are not a place on earth in CRS {CRS(gdf.crs).to_string()}; "
                          "check the CRS (projected metres read as degrees?)"
                          for sid, x, y in zip(gdf.loc[bad, "structure_id"], gdf.geometry.x[bad], gdf.geometry.y[bad])])
-    center = lon_lat.geometry.union_all().centroid
-    crs, note = working_crs(gdf.crs, (center.x, center.y))
+    crs, note = working_crs(gdf.crs, centre_lon_lat(lon, lat), (lon, lat))
     return (gdf if CRS(gdf.crs) == crs else reproject(gdf, crs, where, repr(crs.name))), crs, note
 
 
