@@ -10,7 +10,7 @@ import rasterio
 
 import routesag
 from tests.conftest import write_plane_raster, write_structures
-from tests.test_validation import KINDS, edit, good_survey, line_xy
+from tests.test_validation import KINDS, edit, good_survey, line_xy, with_structures
 
 # Rows and columns of the terrain cells under the middle of the first span (x = X0 + 150, y = Y0 + 200).
 HOLE = (90, 110, 165, 185)
@@ -96,3 +96,20 @@ def test_structures_in_web_mercator_give_true_spans(tmp_path):
     info = dict(zip(result["run_info"]["key"], result["run_info"]["value"]))
     assert "EPSG:3857 is projected but its scale factor" in info["note.crs_note"]
     assert "reprojected to EPSG:32633" in info["note.crs_note"]
+
+
+def test_ground_z_mismatch_warn_uses_the_surveyed_value(tmp_path):
+    project = with_structures(tmp_path, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                         "ground_z_m": [None, 120.0, None]})
+    edit(project, 'terrain = "terrain.tif"', 'terrain = "terrain.tif"\nground_z_mismatch = "warn"')
+    result = routesag.run(project)
+    assert result["structures"].set_index("structure_id").loc["P2", "ground_z_m"] == 120.0
+    assert any("structure P2: field 'ground_z_m' = 120.00 m but the terrain" in w and "is used" in w
+               for w in result.warnings), result.warnings
+
+
+def test_ground_z_within_the_tolerance_is_quiet(tmp_path):
+    project = with_structures(tmp_path, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                         "ground_z_m": [None, 111.0, None]})   # terrain 107 m there
+    result = routesag.run(project)
+    assert not [w for w in result.warnings if "ground_z_m" in w]

@@ -187,6 +187,44 @@ CASES = [
                                            "kind": ["strain", "pole"]}),
          DataError, (r"structure P2 \(row 2\): field 'kind' = 'pole' is not a known kind; accepted \(any case\): "
                      r"suspension \(suspension\), tangent \(suspension\), strain \(strain\), dead-end \(strain\)",)),
+    Case("ground_z_m in feet typed as metres",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                           "ground_z_m": [None, 351.0, None]}),
+         DataError, (r"structures\.gpkg: structure P2: field 'ground_z_m' = 351\.00 m but the terrain "
+                     r".*terrain\.tif is at 107\.00 m there \(244\.00 m apart, more than \[inputs\] "
+                     r"ground_z_tolerance_m = 5 m\)", r"ground_z_mismatch = \"warn\"")),
+    Case("ground_z_m beyond a tighter tolerance",
+         lambda tmp: edit(with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                                "ground_z_m": [None, 108.5, None]}),
+                          'terrain = "terrain.tif"', 'terrain = "terrain.tif"\nground_z_tolerance_m = 1.0'),
+         DataError, (r"structure P2: field 'ground_z_m' = 108\.50 m .*\(1\.50 m apart, more than \[inputs\] "
+                     r"ground_z_tolerance_m = 1 m",)),
+    Case("ground_z_m infinite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                           "ground_z_m": [None, float("inf"), None]}),
+         DataError, (r"structures\.gpkg: structure P2 \(row 2\): field 'ground_z_m' = inf is not a finite number",)),
+    Case("seq infinite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1.0, 2.0, -float("inf")]}),
+         DataError, (r"structure P3 \(row 3\): field 'seq' = -inf is not a finite number",)),
+    Case("insulator length infinite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                           "insulator_m": [0.0, float("inf"), 0.0]}),
+         DataError, (r"structure P2 \(row 2\): field 'insulator_m' = inf is not a finite number",)),
+    Case("CSV field inf",
+         lambda tmp: (edit(good_survey(tmp, structures="s.csv"), 'terrain = "terrain.tif"',
+                           'terrain = "terrain.tif"\ncrs = "EPSG:32633"'),
+                      (tmp / "s.csv").write_text(f"structure_id,seq,x,y,ground_z_m\nP1,1,{X0},{Y0 + 200}\n"
+                                                 f"P2,2,{X0 + 300},{Y0 + 200},1e400\n"))[0],
+         DataError, (r"s\.csv: structure P2 \(row 2\): field 'ground_z_m' = inf is not a finite number",)),
+    Case("CSV coordinate inf",
+         lambda tmp: (edit(good_survey(tmp, structures="s.csv"), 'terrain = "terrain.tif"',
+                           'terrain = "terrain.tif"\ncrs = "EPSG:32633"'),
+                      (tmp / "s.csv").write_text(f"structure_id,seq,x,y\nP1,1,{X0},{Y0 + 200}\nP2,2,inf,{Y0}\n"))[0],
+         DataError, (r"s\.csv: row 2: x/y must be numbers",)),
+    Case("structure geometry not finite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                                     shapely.points([(X0, Y0 + 200.0), (X0 + 300.0, float("nan"))])),
+         DataError, (r"structure P2 \(row 2\): geometry (has a coordinate that is not a finite number|is empty)",)),
     # -- places and CRS --------------------------------------------------------------------------------------
     Case("structure outside the terrain",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
@@ -322,13 +360,22 @@ def test_api_raises_the_named_error(case, tmp_path):
 @pytest.mark.parametrize("case", CASES, ids=idfn)
 def test_cli_exits_2_with_the_message_and_no_traceback(case, tmp_path):
     project = case.build(tmp_path)
+    before = folder_snapshot(tmp_path)
     result = CliRunner().invoke(main, ["run", str(project)])
     assert result.exit_code == 2, result.output
     assert "Traceback" not in result.output
     for pattern in case.match:
         assert _search(pattern, result.output), f"{pattern!r} not in:\n{result.output}"
     assert not (tmp_path / "out.gpkg").exists()
-    assert not [p.name for p in tmp_path.iterdir() if ".tmp-" in p.name]
+    assert folder_snapshot(tmp_path) == before   # nothing written, nothing changed, no temporary file left
+
+
+def folder_snapshot(folder: Path) -> dict:
+    """Every regular file under ``folder`` with its bytes' SHA-256, to show a failed run changed nothing."""
+    import hashlib
+
+    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
 def test_project_file_with_a_utf8_byte_order_mark_runs(tmp_path):

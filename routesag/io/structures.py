@@ -17,7 +17,7 @@ import shapely
 from pyproj import CRS
 from pyproj.exceptions import CRSError, ProjError
 
-from routesag.errors import DataError
+from routesag.errors import DataError, cut
 from routesag.io.crs_checks import MAX_SCALE_DISTORTION, centre_lon_lat, local_conformal_crs, scale_distortion
 from routesag.io.fields import (
     apply_field_map, coordinate_columns, decimal_commas_to_numbers, hint_for_missing, sniff_separator,
@@ -227,11 +227,18 @@ def _label(i: int, sid) -> str:
 def _numeric(series, name, labels, where, problems, required=False) -> np.ndarray:
     values = pd.to_numeric(series, errors="coerce").to_numpy(dtype=float)
     for i, (raw, val) in enumerate(zip(series, values)):
-        if np.isnan(val) and not pd.isna(raw):
-            problems.append(f"{where}: {labels[i]}: field {name!r} = {raw!r} is not a number")
+        if np.isinf(val):
+            problems.append(f"{where}: {labels[i]}: field {name!r} = {val:g} is not a finite number")
+        elif np.isnan(val) and not pd.isna(raw):
+            problems.append(f"{where}: {labels[i]}: field {name!r} = {_shown(raw)} is not a number")
         elif np.isnan(val) and required:
             problems.append(f"{where}: {labels[i]}: field {name!r} is empty")
     return values
+
+
+def _shown(raw) -> str:
+    """A field's raw value for a message, a long text cut in the middle."""
+    return repr(cut(raw)) if isinstance(raw, str) else repr(raw)
 
 
 def _kinds(gdf, labels, where, problems) -> tuple[list[str], list[str]]:
@@ -295,6 +302,9 @@ def _check_geometry(out, labels, where, problems) -> None:
             problems.append(f"{where}: {labels[i]}: geometry is empty")
         elif geom.geom_type != "Point":
             problems.append(f"{where}: {labels[i]}: geometry is {geom.geom_type}; expected Point")
+        elif not np.isfinite([geom.x, geom.y]).all():
+            problems.append(f"{where}: {labels[i]}: geometry has a coordinate that is not a finite number "
+                            f"({geom.x!r}, {geom.y!r})")
 
 
 def _check_duplicates(out, labels, where, problems) -> None:

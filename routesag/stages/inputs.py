@@ -26,6 +26,7 @@ class ReadInputs(Stage):
             structures, crs, note = to_working_crs(structures, source)
             try:
                 structures = locate_attachments(structures, terrain, source, original)
+                check_surveyed_ground(structures, terrain, source, project.settings.get("inputs", {}), ctx.warn)
             finally:
                 warn_implausible(ctx, terrain)
         except BaseException:
@@ -104,5 +105,40 @@ def locate_attachments(structures, terrain, source, original=None):
                          "or extend the terrain"
                          for sid, is_inside in zip(s.loc[missing, "structure_id"], inside)])
     s["ground_z_m"] = ground
+    s["ground_z_surveyed"] = ~need
     s["attach_z_m"] = ground + s["attach_height_m"].to_numpy(dtype=float)
     return s
+
+
+def check_surveyed_ground(structures, terrain, source, inputs, warn) -> None:
+    """Compare each surveyed ground_z_m with the terrain at the structure; refuse (or warn) beyond the tolerance.
+
+    A ground elevation in feet typed as metres, or a slip of a digit, lifts or drops the whole span and can
+    hide a real violation. Where the terrain has no value the surveyed one stands unchecked.
+
+    Parameters
+    ----------
+    inputs : mapping
+        ``[inputs]``: ``ground_z_tolerance_m`` (default 5 m) and ``ground_z_mismatch`` ("refuse" or "warn").
+    """
+    surveyed = structures["ground_z_surveyed"].to_numpy(dtype=bool)
+    if not surveyed.any():
+        return
+    tolerance_m = float(inputs.get("ground_z_tolerance_m", 5.0))
+    given = structures["ground_z_m"].to_numpy(dtype=float)[surveyed]
+    terrain_z = terrain.sample(structures["x"].to_numpy()[surveyed], structures["y"].to_numpy()[surveyed],
+                               crs=structures.crs)
+    with np.errstate(invalid="ignore"):
+        far = np.abs(given - terrain_z) > tolerance_m
+    ids = structures.loc[surveyed, "structure_id"].to_numpy()
+    refuse = inputs.get("ground_z_mismatch", "refuse") == "refuse"
+    messages = [f"structures file {source}: structure {sid}: field 'ground_z_m' = {z:.2f} m but the terrain "
+                f"{terrain.path} is at {t:.2f} m there ({abs(z - t):.2f} m apart, more than [inputs] "
+                f"ground_z_tolerance_m = {tolerance_m:g} m); check the value and its unit (feet read as metres?)"
+                + ("; set [inputs] ground_z_mismatch = \"warn\" to use it anyway" if refuse
+                   else "; the surveyed value is used ([inputs] ground_z_mismatch = \"warn\")")
+                for sid, z, t in zip(ids[far], given[far], terrain_z[far])]
+    if messages and refuse:
+        raise DataError(messages)
+    for message in messages:
+        warn(message)
