@@ -9,6 +9,9 @@ from routesag.physics.clearance_rules import DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADD
 REQUIRED = object()
 #: Highest credible conductor attachment above ground [m]; more is a unit or typing error.
 MAX_ATTACH_HEIGHT_M = 200.0
+#: Largest credible wire position from the structure centre, across or up [m] (common practice: the widest
+#: cross-arms and the tallest earth-wire peaks are a few tens of metres).
+MAX_WIRE_POSITION_M = 100.0
 
 
 @dataclass(frozen=True)
@@ -29,6 +32,12 @@ def positive(value):
 
 def non_negative(value):
     return None if value >= 0 else "must be >= 0"
+
+
+def within(limit):
+    def check(value):
+        return None if abs(value) <= limit else f"must be between -{limit:g} and {limit:g}"
+    return check
 
 
 def up_to(high):
@@ -165,9 +174,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "wires": {
         "name": Key(str, doc="wire name, e.g. a phase label or the earth wire"),
-        "offset_m": Key(NUMBER, 0.0, doc="horizontal offset from the structure centre, + to the right "
+        "offset_m": Key(NUMBER, 0.0, within(MAX_WIRE_POSITION_M), doc="horizontal offset from the structure centre, + to the right "
                                           "looking along increasing seq [m]"),
-        "dz_m": Key(NUMBER, 0.0, doc="height above the structure's attach_height_m [m]"),
+        "dz_m": Key(NUMBER, 0.0, within(MAX_WIRE_POSITION_M), doc="height above the structure's attach_height_m [m]"),
         "insulated": Key(bool, True, doc="hangs from the structure's suspension string (insulator_m); "
                                          "false for a wire clamped to the structure, e.g. an earth wire"),
         "conductor": Key(dict, None, doc="the wire's own conductor (keys as [conductor])"),
