@@ -23,6 +23,7 @@ from typing import Any, Callable, ClassVar, Mapping
 
 import pandas as pd
 
+from routesag.contracts import check_outputs
 from routesag.errors import PipelineError, RoutesagError
 
 log = logging.getLogger("routesag")
@@ -255,6 +256,7 @@ def run_stages(stages: list[Stage], data: dict[str, Any], ctx: RunContext, progr
         missing = set(stage.provides) - set(result)
         if missing:
             raise RoutesagError(f"stage {stage.name!r} did not provide {', '.join(sorted(missing))}")
+        check_outputs(stage.name, result, data)
         data.update(result)
         for name, geometry in stage.output_layers.items():
             ctx.output_layers.setdefault(name, geometry)
