@@ -113,3 +113,14 @@ def test_ground_z_within_the_tolerance_is_quiet(tmp_path):
                                          "ground_z_m": [None, 111.0, None]})   # terrain 107 m there
     result = routesag.run(project)
     assert not [w for w in result.warnings if "ground_z_m" in w]
+
+
+def test_span_ids_unique_when_structure_ids_hold_hyphens(tmp_path):
+    """A, B-C, A-B, C: the first and last spans would both be 'A:A-B-C'."""
+    project = with_structures(tmp_path, {"structure_id": ["A", "B-C", "A-B", "C"], "seq": [1, 2, 3, 4],
+                                         "kind": KINDS})
+    result = routesag.run(project)
+    ids = list(result["spans"]["span_id"])
+    assert ids == ["line:A-B-C#1", "line:B-C-A-B", "line:A-B-C#3"]
+    assert not result["conductors"].duplicated(["span_id", "wire", "load_case"]).any()
+    assert set(result["conductors"]["span_id"]) == set(ids)
