@@ -124,3 +124,16 @@ def test_span_ids_unique_when_structure_ids_hold_hyphens(tmp_path):
     assert ids == ["line:A-B-C#1", "line:B-C-A-B", "line:A-B-C#3"]
     assert not result["conductors"].duplicated(["span_id", "wire", "load_case"]).any()
     assert set(result["conductors"]["span_id"]) == set(ids)
+
+
+def test_no_numpy_warnings_before_a_solve_error_in_a_real_process(tmp_path):
+    """pytest records warnings itself, so the terminal is checked in a child process."""
+    import subprocess
+    import sys
+
+    project = edit(good_survey(tmp_path), "modulus_gpa = 70.0", "modulus_gpa = 1e-9")
+    done = subprocess.run([sys.executable, "-c", "from routesag.cli import main; main()", "run", str(project)],
+                          capture_output=True, text=True, timeout=120)
+    assert done.returncode == 2, done.stderr
+    assert "change of state cannot be solved" in done.stderr
+    assert "RuntimeWarning" not in done.stderr + done.stdout
