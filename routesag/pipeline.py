@@ -81,6 +81,8 @@ class RunContext:
     warnings: list[str] = field(default_factory=list)
     #: Extra output layers contributed by stages (dataset name -> geometry type), in chain order.
     output_layers: dict[str, str | None] = field(default_factory=dict)
+    #: Input role -> (path, SHA-256, file signature), taken when the inputs were read (io.hashing.fingerprint).
+    inputs: dict[str, tuple] = field(default_factory=dict)
 
     def warn(self, message: str) -> None:
         if message in self.warnings:  # sections repeat line-wide warnings

@@ -110,6 +110,32 @@ def with_crossings(crs, layer="crossings"):
     return build
 
 
+def vrt_with_missing_source(tmp: Path) -> Path:
+    project = good_survey(tmp)
+    (tmp / "tiles").mkdir()
+    (tmp / "terrain.tif").rename(tmp / "tiles" / "tile_1.tif")
+    import rasterio
+
+    with rasterio.open(tmp / "tiles" / "tile_1.tif") as ds:
+        width, height, transform = ds.width, ds.height, ds.transform
+    (tmp / "terrain.vrt").write_text(
+        f'<VRTDataset rasterXSize="{width}" rasterYSize="{height}"><SRS>EPSG:32633</SRS>'
+        f'<GeoTransform>{transform.c}, {transform.a}, 0, {transform.f}, 0, {transform.e}</GeoTransform>'
+        '<VRTRasterBand dataType="Float32" band="1"><SimpleSource>'
+        '<SourceFilename relativeToVRT="1">tiles/tile_1.tif</SourceFilename><SourceBand>1</SourceBand>'
+        '</SimpleSource><SimpleSource><SourceFilename relativeToVRT="1">tiles/tile_2.tif</SourceFilename>'
+        '<SourceBand>1</SourceBand></SimpleSource></VRTRasterBand></VRTDataset>')
+    return edit(project, 'terrain = "terrain.tif"', 'terrain = "terrain.vrt"')
+
+
+def csv_missing_column_with_a_bad_body(tmp: Path) -> Path:
+    """The header lacks 'seq'; the body is malformed, so reading it first would give another error."""
+    project = edit(good_survey(tmp, structures="s.csv"), 'terrain = "terrain.tif"',
+                   'terrain = "terrain.tif"\ncrs = "EPSG:32633"')
+    (tmp / "s.csv").write_text("structure_id,x,y\nP1,1,2\nP2,1,2,3,4,5\n" + "P3,1\n" * 1000)
+    return project
+
+
 @dataclass
 class Case:
     id: str
@@ -268,6 +294,10 @@ CASES = [
     Case("unknown CRS name",
          lambda tmp: edit(good_survey(tmp), 'terrain = "terrain.tif"', 'terrain = "terrain.tif"\ncrs = "UTM33"'),
          ProjectError, (r"\[inputs\]: crs = 'UTM33' is not a CRS PROJ knows",)),
+    Case("VRT whose source tile is missing", vrt_with_missing_source, DataError,
+         (r"terrain .*terrain\.vrt: its source file .*tiles/tile_2\.tif is missing",)),
+    Case("CSV missing a column is refused from its header", csv_missing_column_with_a_bad_body, DataError,
+         (r"s\.csv: missing required field 'seq'",)),
     # -- project file ----------------------------------------------------------------------------------------
     Case("TOML syntax error gives line and column",
          lambda tmp: edit(good_survey(tmp), "ground_m = 7.5", "ground_m = = 7.5"),
@@ -437,3 +467,4 @@ def test_every_problem_of_the_project_file_in_one_report(tmp_path):
     assert "unknown key 'grund_m'; did you mean 'ground_m'?" in text
     assert "mass_kg_m = True has the wrong type: expected a number, got true/false" in text
     assert "horizontal_tension_kn = -1.0 must be > 0" in text
+

@@ -40,7 +40,7 @@ FEET_SUSPECT_MIN = 30.0
 DEFAULT_LINE_ID = "line"
 
 
-def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=None) -> gpd.GeoDataFrame:
+def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=None, fields=None) -> gpd.GeoDataFrame:
     """Read structures from any vector source GDAL reads, or a CSV with coordinate columns.
 
     A CSV's separator (, ; tab |) is sniffed and decimal commas are read; its
@@ -58,12 +58,14 @@ def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=Non
         CRS for a source that has none (needed for a CSV without lon/lat columns).
     x_column, y_column : str, optional
         A CSV's coordinate columns.
+    fields : dict, optional
+        ``[inputs.fields]``; given, a CSV's header is checked for the required fields before its body is read.
     """
     path = Path(path)
-    if not path.is_file():
+    if not path.exists():
         raise DataError(f"structures file {path}: not found")
-    if path.suffix.lower() in (".csv", ".txt"):
-        return _read_csv(path, crs, x_column, y_column)
+    if path.is_file() and path.suffix.lower() in (".csv", ".txt"):
+        return _read_csv(path, crs, x_column, y_column, fields)
     try:
         layers = [name for name, _ in pyogrio.list_layers(path)]
     except Exception as exc:  # GDAL raises several types for unreadable files
@@ -104,16 +106,26 @@ def _set_crs(gdf, crs, path):
                         "(give e.g. 'EPSG:32633')") from None
 
 
-def _read_csv(path: Path, crs, x_column=None, y_column=None) -> gpd.GeoDataFrame:
+def _read_csv(path: Path, crs, x_column=None, y_column=None, fields=None) -> gpd.GeoDataFrame:
     where = f"structures file {path}"
     try:
         with path.open(encoding="utf-8-sig", newline="") as fh:
             separator = sniff_separator(fh.read(8192))
+        header = pd.read_csv(path, sep=separator, encoding="utf-8-sig", nrows=0)
+    except Exception as exc:
+        raise DataError(f"{where}: cannot be read as CSV ({_short(exc)})") from None
+    # The header alone tells a missing column: a large file is not read before saying so.
+    header.columns = [str(c).strip() for c in header.columns]
+    x, y, degrees = coordinate_columns(header.columns, x_column, y_column, where)
+    if fields is not None:
+        missing = missing_required_fields(apply_field_map(header, fields, FIELDS, where)[0], where)
+        if missing:
+            raise DataError(missing)
+    try:
         df = decimal_commas_to_numbers(pd.read_csv(path, sep=separator, encoding="utf-8-sig"))
     except Exception as exc:
         raise DataError(f"{where}: cannot be read as CSV ({_short(exc)})") from None
     df.columns = [str(c).strip() for c in df.columns]
-    x, y, degrees = coordinate_columns(df.columns, x_column, y_column, where)
     note = f"CSV separator {separator!r}; coordinates from columns {x!r}, {y!r}"
     if not crs and degrees:
         crs, note = "EPSG:4326", note + " read as WGS 84 lon/lat (no [inputs] crs)"
@@ -177,9 +189,7 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
         warn(message)
     if gdf.crs is None:
         problems.append(f"{where}: no CRS; give the layer a CRS or set [inputs] crs in the project file")
-    for name in REQUIRED_FIELDS:
-        if name not in gdf.columns:
-            problems.append(f"{where}: missing required field {name!r}{hint_for_missing(name, gdf.columns)}")
+    problems += missing_required_fields(gdf, where)
     if problems:
         raise DataError(problems)
 
@@ -204,6 +214,12 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
     if problems:
         raise DataError(problems)
     return out
+
+
+def missing_required_fields(frame, where) -> list[str]:
+    """A message for each required field the frame (after the field map) lacks, with a hint at a near name."""
+    return [f"{where}: missing required field {name!r}{hint_for_missing(name, frame.columns)}"
+            for name in REQUIRED_FIELDS if name not in frame.columns]
 
 
 def _warn_feet(gdf, height_units, default_m, where, warn) -> None:

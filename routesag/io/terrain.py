@@ -11,6 +11,7 @@ import sys
 import threading
 from dataclasses import dataclass
 from pathlib import Path
+from xml.etree import ElementTree
 
 import affine
 import numpy as np
@@ -468,6 +469,10 @@ def _open_single_band(path, assigned_crs=None):
     if not path.is_file():
         raise DataError(f"terrain {path} cannot be opened: file not found"
                         + (" (it is a folder)" if path.is_dir() else ""))
+    missing = _missing_vrt_sources(path)
+    if missing:
+        raise DataError([f"terrain {path}: its source file {source} is missing; restore it or rebuild the VRT"
+                         for source in missing])
     try:
         with _quiet_undecodable_gdal_messages():
             ds = rasterio.open(path)
@@ -482,6 +487,28 @@ def _open_single_band(path, assigned_crs=None):
         ds.close()
         raise DataError(problem)
     return ds
+
+
+def _missing_vrt_sources(path) -> list[str]:
+    """Source files a VRT names that do not exist (GDAL would only say the VRT is corrupt); [] for other files.
+
+    Sources on GDAL virtual file systems (``/vsi...``) and anything that is not a plain path are not checked.
+    """
+    if path.suffix.lower() != ".vrt":
+        return []
+    try:
+        root = ElementTree.parse(path).getroot()
+    except (ElementTree.ParseError, OSError):
+        return []   # not XML: GDAL's own error names the file
+    missing = []
+    for element in root.iter("SourceFilename"):
+        name = (element.text or "").strip()
+        if not name or name.startswith("/vsi") or ":" in name[2:]:
+            continue
+        source = path.parent / name if element.get("relativeToVRT", "0") == "1" else Path(name)
+        if not source.exists() and str(source) not in missing:
+            missing.append(str(source))
+    return missing
 
 
 def _parse_crs(path, ds, assigned=None):

@@ -5,6 +5,7 @@ import numpy as np
 
 from routesag.errors import DataError
 from routesag.io.extents import extent_message
+from routesag.io.hashing import fingerprint
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
@@ -20,6 +21,7 @@ class ReadInputs(Stage):
     def run(self, data, ctx):
         project = data["project"]
         source = project.structures_path
+        record_inputs(project, ctx)
         structures, terrain = read_and_check(project, ctx)
         try:
             original = structures.copy()
@@ -41,6 +43,13 @@ class ReadInputs(Stage):
         return {"structures": structures, "terrain": terrain, "work_crs": crs}
 
 
+def record_inputs(project, ctx) -> None:
+    """Hash every input as the run starts reading them; run_info reports these, not a later file's."""
+    for role, path in project.input_paths().items():
+        if path.exists():
+            ctx.inputs[role] = (path, *fingerprint(path))
+
+
 def read_and_check(project, ctx=None):
     """Checked structures and the open terrain; problems of both are reported together.
 
@@ -55,7 +64,7 @@ def read_and_check(project, ctx=None):
     warn = ctx.warn if ctx is not None else None
     try:
         raw = read_structures_file(project.structures_path, project.structures_layer, project.structures_crs,
-                                   inputs.get("x_column"), inputs.get("y_column"))
+                                   inputs.get("x_column"), inputs.get("y_column"), inputs.get("fields") or {})
         if ctx is not None and raw.attrs.get("note"):
             ctx.notes["structures_columns"] = raw.attrs["note"]
         structures = check_structures(raw, project.structures_path, project.attach_height_m,

@@ -12,7 +12,7 @@ import shapely
 
 from routesag import __version__
 from routesag.io.gpkg import write_layers
-from routesag.io.hashing import sha256_file
+from routesag.io.hashing import input_sha256
 from routesag.pipeline import Stage
 
 CAUTION = ("Screening aid only: loads and required clearances come from the governing code (NESC, EN 50341 "
@@ -184,7 +184,7 @@ def run_info_table(project, ctx) -> pd.DataFrame:
             ("caution", CAUTION)]
     for role, path in project.input_paths().items():
         rows.append((f"input.{role}", str(path)))
-        rows.append((f"input.{role}.sha256", sha256_file(path)))
+        rows.append((f"input.{role}.sha256", input_sha256(role, path, ctx)))
     for key, value in sorted(ctx.notes.items()):
         rows.append((f"note.{key}", value if isinstance(value, str) else json.dumps(value)))
     for table, values in project.settings.items():
