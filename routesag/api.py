@@ -4,9 +4,14 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import logging
+
 from routesag.errors import OutputError
+from routesag.io.outputs_guard import check_output_target, remove_stale_temporaries
 from routesag.pipeline import RunContext, assemble_chain, run_chain, stages_for
 from routesag.project import Project, load_project
+
+log = logging.getLogger("routesag")
 
 
 @dataclass
@@ -103,6 +108,7 @@ def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=
 def check_destination(project: Project) -> None:
     """Refuse an output over an input file or into a missing folder, before any work is done."""
     out = project.output_path
+    check_output_target(out, protect=project.input_paths().values())
     inputs = {p.resolve() for p in project.input_paths().values()}
     if out.resolve() in inputs or any(_is_hard_link(out, p) for p in inputs):
         raise OutputError(f"output {out} is one of the input files; choose another output path")
@@ -110,6 +116,8 @@ def check_destination(project: Project) -> None:
         raise OutputError(f"output folder {out.parent} does not exist")
     if out.is_dir():
         raise OutputError(f"output {out} is a folder; give a .gpkg file path")
+    for stale in remove_stale_temporaries(out):
+        log.warning("removed %s, a temporary file left by an earlier run that was killed", stale)
 
 
 def _is_hard_link(a: Path, b: Path) -> bool:
