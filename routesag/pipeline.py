@@ -38,6 +38,8 @@ DEFAULT_CHAIN = ("read_inputs", "build_spans", "check_spans", "solve_tensions", 
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)
+# The dataset the writer provides: its stage runs after every stage that does not need it.
+WRITTEN = "geopackage"
 # The dataset that defines the tension sections (one row each, with section_id, line_id, from_id, to_id).
 SECTIONS = "sections"
 
@@ -174,7 +176,26 @@ def order_stages(stages: list[Stage]) -> list[Stage]:
         ordered.append(ready[0])
         have.update(ready[0].provides)
         pending.remove(ready[0])
-    return ordered
+    return writer_last(ordered, requires)
+
+
+def writer_last(ordered: list[Stage], requires: Mapping[str, tuple[str, ...]]) -> list[Stage]:
+    """The same order with the writer (provider of :data:`WRITTEN`), and whatever needs what it wrote, at the end.
+
+    A stage that nothing requires would otherwise run after the writer: its failure would come after the
+    earlier output was replaced, and its notes and warnings would miss run_info.
+    """
+    late: set[str] = {s.name for s in ordered if WRITTEN in s.provides}
+    made = {d for s in ordered if s.name in late for d in s.provides}
+    grew = True
+    while grew:
+        grew = False
+        for stage in ordered:
+            if stage.name not in late and set(requires[stage.name]) & made:
+                late.add(stage.name)
+                made |= set(stage.provides)
+                grew = True
+    return [s for s in ordered if s.name not in late] + [s for s in ordered if s.name in late]
 
 
 def stages_for(chain: list[Stage], targets) -> list[Stage]:

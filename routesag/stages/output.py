@@ -62,7 +62,10 @@ class WriteGeoPackage(Stage):
 
     def run(self, data, ctx):
         project = data["project"]
-        write_layers(project.output_path, data["layers"], protect=tuple(project.input_paths().values()))
+        layers = data["layers"]
+        if "run_info" in layers:  # rebuilt now, so the notes and warnings of every stage before the writer are in it
+            layers["run_info"] = (run_info_table(project, ctx), None)
+        write_layers(project.output_path, layers, protect=tuple(project.input_paths().values()))
         return {"geopackage": project.output_path}
 
 
