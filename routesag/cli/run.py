@@ -13,5 +13,8 @@ from routesag.cli.options import fail_on_violation_option, finish, handle_errors
 def run_command(project, out, fail_on_violation, per_span):
     """Compute conductors and clearances for PROJECT (a TOML project file)."""
     from routesag.api import run
+    from routesag.cli.signals import terminate_as_interrupt
 
-    finish(run(project, out=out), fail_on_violation, per_span)
+    with terminate_as_interrupt():
+        result = run(project, out=out)
+    finish(result, fail_on_violation, per_span)
