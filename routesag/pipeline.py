@@ -108,12 +108,33 @@ class RunContext:
                 self.warnings.append(message)
 
 
-def available_stages() -> dict[str, Stage]:
-    """Every stage registered in the entry-point group, by name, instantiated.
+#: The distribution whose stages are the built-in ones; their names are reserved.
+BUILTIN_DISTRIBUTION = "routesag"
 
-    A stage whose import fails becomes a :class:`BrokenStage`.
+
+class Registry(dict):
+    """Stages by name, plus every provider by ``distribution:name`` and the names several distributions claim."""
+
+    def __init__(self):
+        super().__init__()
+        self.qualified: dict[str, Stage] = {}
+        self.clashes: dict[str, list[str]] = {}
+
+
+def _distribution(ep) -> str:
+    dist = getattr(ep, "dist", None)
+    name = getattr(dist, "name", None) or (ep.value.split(".")[0] if ep.value else "?")
+    return name.lower().replace("_", "-")
+
+
+def available_stages() -> Registry:
+    """Every stage registered in the entry-point group, by name, instantiated; ``stage.distribution`` says whose.
+
+    A stage whose import fails becomes a :class:`BrokenStage`. A built-in name always means routesag's own
+    stage; another distribution registering it (or two plugins sharing a name) is recorded in ``clashes``
+    and refused by :func:`assemble_chain` unless the project names the provider as ``distribution:name``.
     """
-    stages: dict[str, Stage] = {}
+    stages = Registry()
     for ep in entry_points(group=ENTRY_POINT_GROUP):
         try:
             cls = ep.load()
@@ -122,27 +143,72 @@ def available_stages() -> dict[str, Stage]:
                 stage.name = ep.name
         except Exception as exc:  # a broken plugin must never break the CLI
             stage = BrokenStage(ep.name, exc)
-        stages.setdefault(ep.name, stage)
+        dist = _distribution(ep)
+        try:
+            stage.distribution = dist
+        except AttributeError:
+            pass
+        stages.qualified[f"{dist}:{ep.name}"] = stage
+        builtin_name = ep.name in DEFAULT_CHAIN
+        if ep.name in stages:
+            owner = getattr(stages[ep.name], "distribution", "")
+            if builtin_name and dist == BUILTIN_DISTRIBUTION and owner != BUILTIN_DISTRIBUTION:
+                stages.clashes.setdefault(ep.name, []).append(owner)
+                stages[ep.name] = stage
+            elif dist != owner:
+                stages.clashes.setdefault(ep.name, []).append(dist)
+            continue
+        stages[ep.name] = stage
     return stages
+
+
+def _resolve(extra, registry) -> tuple[list[Stage], set[str]]:
+    """The extra stages, ``distribution:name`` picking one provider; and the bare names so chosen."""
+    qualified = getattr(registry, "qualified", {})
+    unknown = [n for n in extra if n not in registry and n not in qualified]
+    if unknown:
+        raise PipelineError(f"unknown stage(s) {', '.join(map(repr, unknown))}; "
+                            f"registered: {', '.join(sorted(registry))}")
+    chosen = {n.split(":", 1)[1] for n in extra if ":" in n and n in qualified}
+    return [qualified.get(n) or registry[n] for n in dict.fromkeys(extra)], chosen
+
+
+def _refuse_clashes(registry, extra, chosen) -> None:
+    for name, others in getattr(registry, "clashes", {}).items():
+        if name in chosen:
+            continue
+        used = name in DEFAULT_CHAIN or name in extra
+        if not used:
+            continue
+        owner = getattr(registry[name], "distribution", "?")
+        claimants = sorted({owner, *others})
+        raise PipelineError(
+            f"stage name {name!r} is registered by several distributions ({', '.join(claimants)})"
+            + (f"; it is a built-in name, reserved for {BUILTIN_DISTRIBUTION}" if name in DEFAULT_CHAIN else "")
+            + f". Name the one to use in [pipeline] stages, e.g. stages = [\"{claimants[-1]}:{name}\"], "
+              "or uninstall the other package")
 
 
 def assemble_chain(extra: list[str] = (), registry: Mapping[str, Stage] | None = None) -> list[Stage]:
     """Build the ordered stage list: the built-in chain plus ``extra`` stages.
 
     An extra stage that provides a dataset a built-in stage provides replaces
-    that built-in stage. The chain is ordered so every stage runs after the
-    providers of what it requires. Raises PipelineError for an unknown stage,
-    a dataset nobody provides, two providers of one dataset, or a cycle.
+    that built-in stage; ``distribution:name`` picks one distribution's stage
+    (needed when several register the name). The chain is ordered so every
+    stage runs after the providers of what it requires. Raises PipelineError
+    for an unknown stage, a name several distributions claim, a dataset
+    nobody provides, two providers of one dataset, or a cycle.
     """
     registry = available_stages() if registry is None else registry
-    unknown = [n for n in list(DEFAULT_CHAIN) + list(extra) if n not in registry]
-    if unknown:
-        raise PipelineError(f"unknown stage(s) {', '.join(map(repr, unknown))}; "
+    missing_builtin = [n for n in DEFAULT_CHAIN if n not in registry]
+    if missing_builtin:
+        raise PipelineError(f"unknown stage(s) {', '.join(map(repr, missing_builtin))}; "
                             f"registered: {', '.join(sorted(registry))}")
-    added = [registry[n] for n in dict.fromkeys(extra)]
+    added, chosen = _resolve(list(extra), registry)
+    _refuse_clashes(registry, list(extra), chosen)
     replaced = {p for s in added for p in s.provides}
     chain = [registry[n] for n in DEFAULT_CHAIN
-             if n not in extra and not (set(registry[n].provides) & replaced)] + added
+             if n not in extra and n not in chosen and not (set(registry[n].provides) & replaced)] + added
     return order_stages(chain)
 
 

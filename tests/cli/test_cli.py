@@ -81,10 +81,52 @@ def test_output_over_input_refused(runner, survey):
 def test_stages_lists_builtin_and_plugin(runner, plugin):
     result = runner.invoke(main, ["stages"])
     assert result.exit_code == 0, result.output
-    assert "read_inputs  [built-in]" in result.output
-    assert "count_violations  [plugin]" in result.output
+    assert "read_inputs  [built-in, from routesag]" in result.output
+    assert "count_violations  [plugin, from demo-plugin-stage]" in result.output
     assert "requires: violations" in result.output
-    assert "broken_one  [plugin]" in result.output and "failed to load" in result.output
+    assert "broken_one  [plugin, from demo-plugin-stage]" in result.output and "failed to load" in result.output
+
+
+@pytest.fixture
+def clashing(tmp_path, monkeypatch):
+    """A distribution that registers a stage under the built-in name 'sample_terrain'."""
+    root = tmp_path / "clash"
+    root.mkdir()
+    (root / "other_ground.py").write_text(textwrap.dedent("""
+        from routesag.stages.terrain import SampleTerrain
+
+        class OtherGround(SampleTerrain):
+            description = "another package's terrain sampler (test plugin)"
+
+            def run(self, data, ctx):
+                ctx.notes["other_ground"] = "used"
+                return super().run(data, ctx)
+        """))
+    dist = root / "other_ground-2.0.dist-info"
+    dist.mkdir()
+    (dist / "METADATA").write_text("Metadata-Version: 2.1\nName: other-ground\nVersion: 2.0\n")
+    (dist / "entry_points.txt").write_text("[routesag.stages]\nsample_terrain = other_ground:OtherGround\n")
+    monkeypatch.syspath_prepend(str(root))
+    importlib.invalidate_caches()
+    return root
+
+
+def test_a_built_in_name_claimed_by_another_package_is_refused(runner, clashing, survey):
+    import routesag
+    from routesag.pipeline import available_stages
+
+    assert available_stages()["sample_terrain"].distribution == "routesag"   # the built-in is never displaced
+    listing = runner.invoke(main, ["stages"]).output
+    assert "sample_terrain  [built-in, from routesag]" in listing and "CLASH: also registered by other-ground" in listing
+    result = runner.invoke(main, ["run", str(survey)])
+    assert result.exit_code == 2, result.output
+    assert ("stage name 'sample_terrain' is registered by several distributions (other-ground, routesag); it is a "
+            "built-in name, reserved for routesag") in result.output
+    assert not (survey.parent / "out.gpkg").exists()
+    survey.write_text(survey.read_text() + '\n[pipeline]\nstages = ["other-ground:sample_terrain"]\n')
+    assert routesag.run(survey).notes["other_ground"] == "used"
+    survey.write_text(survey.read_text().replace("other-ground:sample_terrain", "routesag:sample_terrain"))
+    assert "other_ground" not in routesag.run(survey).notes
 
 
 def test_project_can_add_plugin_stage(runner, plugin, survey):
