@@ -13,12 +13,23 @@ def runner():
     return CliRunner()
 
 
+def install_distribution(root, monkeypatch, name, module, code, entry_points):
+    """A distribution on sys.path as pip leaves it: a module and a dist-info folder with its entry points."""
+    root.mkdir()
+    (root / f"{module}.py").write_text(textwrap.dedent(code))
+    dist = root / f"{name.replace('-', '_')}-1.0.dist-info"
+    dist.mkdir()
+    (dist / "METADATA").write_text(f"Metadata-Version: 2.1\nName: {name}\nVersion: 1.0\n")
+    (dist / "entry_points.txt").write_text("[routesag.stages]\n" + entry_points)
+    monkeypatch.syspath_prepend(str(root))
+    importlib.invalidate_caches()
+    return root
+
+
 @pytest.fixture
 def plugin(tmp_path, monkeypatch):
     """Register a third-party stage through a real entry point (a dist-info folder on sys.path)."""
-    root = tmp_path / "plugin"
-    root.mkdir()
-    (root / "demo_plugin_stage.py").write_text(textwrap.dedent("""
+    return install_distribution(tmp_path / "plugin", monkeypatch, "demo-plugin-stage", "demo_plugin_stage", """
         from routesag.pipeline import Stage
 
         class CountViolations(Stage):
@@ -30,16 +41,7 @@ def plugin(tmp_path, monkeypatch):
             def run(self, data, ctx):
                 ctx.notes["violation_count"] = len(data["violations"])
                 return {"violation_count": len(data["violations"])}
-        """))
-    dist = root / "demo_plugin_stage-1.0.dist-info"
-    dist.mkdir()
-    (dist / "METADATA").write_text("Metadata-Version: 2.1\nName: demo-plugin-stage\nVersion: 1.0\n")
-    (dist / "entry_points.txt").write_text(
-        "[routesag.stages]\ncount_violations = demo_plugin_stage:CountViolations\n"
-        "broken_one = demo_plugin_missing:Nothing\n")
-    monkeypatch.syspath_prepend(str(root))
-    importlib.invalidate_caches()
-    return root
+        """, "count_violations = demo_plugin_stage:CountViolations\nbroken_one = demo_plugin_missing:Nothing\n")
 
 
 def test_run_prints_summary_and_exits_0(runner, survey):
@@ -90,9 +92,7 @@ def test_stages_lists_builtin_and_plugin(runner, plugin):
 @pytest.fixture
 def clashing(tmp_path, monkeypatch):
     """A distribution that registers a stage under the built-in name 'sample_terrain'."""
-    root = tmp_path / "clash"
-    root.mkdir()
-    (root / "other_ground.py").write_text(textwrap.dedent("""
+    return install_distribution(tmp_path / "clash", monkeypatch, "other-ground", "other_ground", """
         from routesag.stages.terrain import SampleTerrain
 
         class OtherGround(SampleTerrain):
@@ -101,14 +101,7 @@ def clashing(tmp_path, monkeypatch):
             def run(self, data, ctx):
                 ctx.notes["other_ground"] = "used"
                 return super().run(data, ctx)
-        """))
-    dist = root / "other_ground-2.0.dist-info"
-    dist.mkdir()
-    (dist / "METADATA").write_text("Metadata-Version: 2.1\nName: other-ground\nVersion: 2.0\n")
-    (dist / "entry_points.txt").write_text("[routesag.stages]\nsample_terrain = other_ground:OtherGround\n")
-    monkeypatch.syspath_prepend(str(root))
-    importlib.invalidate_caches()
-    return root
+        """, "sample_terrain = other_ground:OtherGround\n")
 
 
 def test_a_built_in_name_claimed_by_another_package_is_refused(runner, clashing, survey):
