@@ -151,3 +151,16 @@ def test_stale_temporaries_of_dead_runs_are_removed_and_live_ones_kept(project, 
     assert not stale.exists() and not journal.exists()
     assert live.exists() and other.exists()
     assert "a temporary file left by an earlier run that was killed" in caplog.text and stale.name in caplog.text
+
+
+def test_an_immutable_earlier_output_is_refused_before_computing(project):
+    import shutil
+
+    out = project.parent / "out.gpkg"
+    routesag.run(project)
+    if not shutil.which("chattr") or subprocess.run(["chattr", "+i", str(out)], capture_output=True).returncode:
+        pytest.skip("cannot set the immutable flag here (needs chattr and the right)")
+    try:
+        refused(project, out, r"out\.gpkg is marked immutable or append-only \(chattr\)")
+    finally:
+        subprocess.run(["chattr", "-i", str(out)], check=True)

@@ -283,6 +283,13 @@ CASES = [
     Case("crossings in projected metres labelled lat/lon", with_crossings("EPSG:4326"), DataError,
          (r"crossings file .*crossings\.gpkg, layer 'crossings': feature 1 \(category 'road'\): coordinates "
           r"cannot be placed in the working CRS 'WGS 84 / UTM zone 33N'",)),
+    Case("crossings required_m infinite",
+         lambda tmp: (with_crossings(CRS)(tmp),
+                      write_layer(tmp / "crossings.gpkg", {"category": ["road"], "required_m": [float("inf")]},
+                                  [shapely.box(X0 + 140.0, Y0 + 150.0, X0 + 160.0, Y0 + 250.0)], CRS,
+                                  layer="crossings"))[0],
+         DataError, (r"crossings file .*crossings\.gpkg, layer 'crossings': feature 1 \(category 'road'\): field "
+                     r"'required_m' = inf is not a finite number",)),
     Case("crossings in a local grid", with_crossings(local_grid("metre", 1)), DataError,
          (r"crossings file .*crossings\.gpkg, layer 'crossings': CRS 'site grid' cannot be transformed to the "
           r"working CRS 'WGS 84 / UTM zone 33N'",)),

@@ -62,9 +62,35 @@ def _check_replaceable(path: Path) -> None:
                 else "not a regular file")
         raise OutputError(f"output {cut(path)} is {kind}, not a regular file: routesag writes a GeoPackage file "
                           "and would replace it; give a .gpkg file path")
+    if _immutable(path):
+        raise OutputError(f"output {cut(path)} is marked immutable or append-only (chattr); it cannot be replaced: "
+                          "clear the flag or write elsewhere with --out")
     if os.stat(path).st_size and not is_geopackage(path):
         raise OutputError(f"output {cut(path)} exists and is not a GeoPackage; routesag replaces only an earlier "
                           "GeoPackage, never another file: choose another output path or move that file away")
+
+
+#: Linux inode flags (linux/fs.h): FS_IOC_GETFLAGS, FS_IMMUTABLE_FL, FS_APPEND_FL.
+_FS_IOC_GETFLAGS, _FS_IMMUTABLE_FL, _FS_APPEND_FL = 0x80086601, 0x10, 0x20
+
+
+def _immutable(path: Path) -> bool:
+    """True when Linux reports the file immutable or append-only; False where that cannot be asked."""
+    try:
+        import array
+        import fcntl
+
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+    except (ImportError, OSError):
+        return False
+    try:
+        flags = array.array("l", [0])
+        fcntl.ioctl(fd, _FS_IOC_GETFLAGS, flags, True)
+        return bool(flags[0] & (_FS_IMMUTABLE_FL | _FS_APPEND_FL))
+    except OSError:
+        return False
+    finally:
+        os.close(fd)
 
 
 def _same(a: Path, b: Path) -> bool:
