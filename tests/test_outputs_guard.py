@@ -106,7 +106,7 @@ def test_a_read_only_folder_is_refused_before_computing(project, tmp_path):
     (OSError(errno.EBUSY, "Device or resource busy"), "the file is busy"),
     (OSError(errno.EPERM, "Operation not permitted"), "protected \\(immutable"),
     (pyogrio.errors.DataSourceError("sqlite3_exec(COMMIT) failed: database or disk is full"), "the disk is full"),
-    (RuntimeError("Failed to commit transaction"), "input/output error"),
+    (RuntimeError("Failed to commit transaction"), "the disk may be full, or the file larger"),
 ])
 def test_write_errors_are_told_in_words(project, monkeypatch, error, advice):
     routesag.run(project)
@@ -164,3 +164,18 @@ def test_an_immutable_earlier_output_is_refused_before_computing(project):
         refused(project, out, r"out\.gpkg is marked immutable or append-only \(chattr\)")
     finally:
         subprocess.run(["chattr", "-i", str(out)], check=True)
+
+
+def test_a_real_file_size_limit_during_the_write(project):
+    """ulimit -f in a child process: SQLite fails to commit; exit 2, what to do, the earlier output intact."""
+    routesag.run(project)
+    before = snapshot(project.parent)
+    child = ("import resource, signal, sys\n"
+             "signal.signal(signal.SIGXFSZ, signal.SIG_IGN)\n"
+             "resource.setrlimit(resource.RLIMIT_FSIZE, (150_000, 150_000))\n"
+             "from routesag.cli import main\n"
+             "main(['run', sys.argv[1]])\n")
+    done = subprocess.run([sys.executable, "-c", child, str(project)], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 2, done.stderr
+    assert "could not be written" in done.stderr and "ulimit -f" in done.stderr and "Traceback" not in done.stderr
+    assert snapshot(project.parent) == before

@@ -31,6 +31,8 @@ SQLITE_HEADER = b"SQLite format 3\x00"
 GPKG_APPLICATION_IDS = (b"GPKG", b"GP10", b"GP11")
 #: The temporary name adds "." + ".tmp-" + pid + "-" + 12 hex digits to the stem [characters].
 _TEMP_EXTRA = len("..tmp--") + 10 + 12
+#: SQLite's "Failed to commit transaction" names no cause: full disk and file-size limit look alike.
+_COMMIT = "commit"
 _TEMP_NAME = re.compile(r"^\.(?P<stem>.+)\.tmp-(?P<pid>\d+)-[0-9a-f]{12}\.gpkg(?P<sidecar>-journal|-wal|-shm)?$")
 
 
@@ -201,7 +203,7 @@ def write_error(exc: BaseException, destination) -> OutputError | None:
     text = str(exc)
     lowered = text.lower()
     for needle, errno_ in (("no space", errno.ENOSPC), ("disk full", errno.ENOSPC), ("database or disk is full",
-                           errno.ENOSPC), ("file too large", errno.EFBIG), ("failed to commit", errno.EIO),
+                           errno.ENOSPC), ("file too large", errno.EFBIG), ("failed to commit", _COMMIT),
                            ("read-only", errno.EROFS), ("permission denied", errno.EACCES),
                            ("unable to open database", errno.EACCES), ("disk i/o error", errno.EIO)):
         if needle in lowered:
@@ -223,4 +225,6 @@ def _advice(code) -> str:
         errno.EBUSY: "the file is busy (open in another program?): close it or write elsewhere with --out",
         errno.EROFS: "the file system is read-only: write elsewhere with --out",
         errno.EIO: "the storage reported an input/output error: check the disk, or write elsewhere with --out",
+        _COMMIT: "the disk may be full, or the file larger than the file system or the process limit "
+                 "(ulimit -f) allows: free space, or write elsewhere with --out",
     }.get(code, "write elsewhere with --out, or fix the cause and run again")
