@@ -53,8 +53,10 @@ def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_
         ``result.layers[name]`` is a GeoDataFrame (or DataFrame for tables).
     """
     project = load_project(project_path, output=out)
-    check_destination(project)
+    removed = check_destination(project)
     ctx = RunContext()
+    if removed:
+        ctx.notes["removed_stale_temporaries"] = [str(p) for p in removed]
     engine = engine_factory(project, workers, scheduler)
     data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress, engine, on_section)
     layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
@@ -105,8 +107,11 @@ def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=
     return data
 
 
-def check_destination(project: Project) -> None:
-    """Refuse an output over an input file or into a missing folder, before any work is done."""
+def check_destination(project: Project) -> list[Path]:
+    """Refuse an output over an input file or into a missing folder, before any work is done.
+
+    Returns the temporary files of killed earlier runs that were removed beside the output.
+    """
     out = project.output_path
     check_output_target(out, protect=project.input_paths().values())
     inputs = {p.resolve() for p in project.input_paths().values()}
@@ -116,8 +121,10 @@ def check_destination(project: Project) -> None:
         raise OutputError(f"output folder {out.parent} does not exist")
     if out.is_dir():
         raise OutputError(f"output {out} is a folder; give a .gpkg file path")
-    for stale in remove_stale_temporaries(out):
+    removed = remove_stale_temporaries(out)
+    for stale in removed:
         log.warning("removed %s, a temporary file left by an earlier run that was killed", stale)
+    return removed
 
 
 def _is_hard_link(a: Path, b: Path) -> bool:

@@ -147,7 +147,8 @@ def test_stale_temporaries_of_dead_runs_are_removed_and_live_ones_kept(project, 
     for path in (stale, journal, live, other):
         path.write_bytes(b"partial")
     with caplog.at_level("WARNING", logger="routesag"):
-        routesag.run(project)
+        result = routesag.run(project)
+    assert sorted(result.notes["removed_stale_temporaries"]) == sorted([str(stale), str(journal)])
     assert not stale.exists() and not journal.exists()
     assert live.exists() and other.exists()
     assert "a temporary file left by an earlier run that was killed" in caplog.text and stale.name in caplog.text
