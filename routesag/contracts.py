@@ -53,11 +53,11 @@ def _per_station(check_entry: Callable[[Any, int], str | None], none_ok=False):
         profiles = data.get("conductors")
         if not isinstance(profiles, Profiles):
             return []
-        problems = []
+        problems, known = [], set(profiles.keys())
         missing = [k for k in profiles.keys() if k not in value]
         if missing:
             problems.append(f"has no entry for {len(missing)} profile(s), e.g. {_keys(missing)}")
-        extra = [k for k in value if k not in set(profiles.keys())]
+        extra = [k for k in value if k not in known]
         if extra:
             problems.append(f"has entries for {len(extra)} unknown profile(s), e.g. {_keys(extra)}")
         wrong = []
