@@ -4,10 +4,15 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import logging
+
 from routesag.errors import InputError, OutputError, ProjectError
 from routesag.io.gpkg_version import check_extension
+from routesag.io.outputs_guard import check_output_target, remove_stale_temporaries
 from routesag.pipeline import RunContext, assemble_chain, run_chain, stages_for
 from routesag.project import Project, load_project
+
+log = logging.getLogger("routesag")
 
 
 @dataclass
@@ -50,8 +55,9 @@ def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_sec
         ``result.layers[name]`` is a GeoDataFrame (or DataFrame for tables).
     """
     project = load_project(project_path, output=out)
-    check_destination(project)
-    return run_project(project, engine_factory(project, workers, scheduler), progress, on_section)
+    removed = check_destination(project)
+    return run_project(project, engine_factory(project, workers, scheduler), progress, on_section,
+                       removed)
 
 
 def run_batch(project_paths, workers=1, scheduler=None, progress=None, on_section=None, on_result=None) -> list:
@@ -108,9 +114,14 @@ def load_batch(project_paths) -> list[Project]:
     return projects
 
 
-def run_project(project: Project, engine, progress=None, on_section=None) -> RunResult:
-    """Run a loaded project's chain on ``engine`` (an engine, or a function of the section count making one)."""
+def run_project(project: Project, engine, progress=None, on_section=None, removed=()) -> RunResult:
+    """Run a loaded project's chain on ``engine`` (an engine, or a function of the section count making one).
+
+    ``removed``: stale temporary files of killed runs that :func:`check_destination` removed (noted in run_info).
+    """
     ctx = RunContext()
+    if removed:
+        ctx.notes["removed_stale_temporaries"] = [str(p) for p in removed]
     data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress, engine, on_section)
     layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
@@ -170,9 +181,13 @@ def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=
     return data
 
 
-def check_destination(project: Project) -> None:
-    """Refuse an output over an input file or into a missing folder, before any work is done."""
+def check_destination(project: Project) -> list[Path]:
+    """Refuse an output over an input file or into a missing folder, before any work is done.
+
+    Returns the temporary files of killed earlier runs that were removed beside the output.
+    """
     out = project.output_path
+    check_output_target(out, protect=project.input_paths().values())
     inputs = {p.resolve() for p in project.input_paths().values()}
     if out.resolve() in inputs or any(_is_hard_link(out, p) for p in inputs):
         raise OutputError(f"output {out} is one of the input files; choose another output path")
@@ -181,6 +196,10 @@ def check_destination(project: Project) -> None:
     if out.is_dir():
         raise OutputError(f"output {out} is a folder; give a .gpkg file path")
     check_extension(out)
+    removed = remove_stale_temporaries(out)
+    for stale in removed:
+        log.warning("removed %s, a temporary file left by an earlier run that was killed", stale)
+    return removed
 
 
 def _is_hard_link(a: Path, b: Path) -> bool:

@@ -23,6 +23,7 @@ from typing import Any, Callable, ClassVar, Mapping
 
 import pandas as pd
 
+from routesag.contracts import check_outputs
 from routesag.errors import PipelineError, RoutesagError
 
 log = logging.getLogger("routesag")
@@ -39,6 +40,8 @@ DEFAULT_CHAIN += ("read_point_cloud", "fit_wires", "compare_as_found", "measure_
 
 # Datasets present before any stage runs.
 INITIAL_DATASETS = ("project",)
+# The dataset the writer provides: its stage runs after every stage that does not need it.
+WRITTEN = "geopackage"
 # The dataset that defines the tension sections (one row each, with section_id, line_id, from_id, to_id).
 SECTIONS = "sections"
 
@@ -82,6 +85,8 @@ class RunContext:
     warnings: list[str] = field(default_factory=list)
     #: Extra output layers contributed by stages (dataset name -> geometry type), in chain order.
     output_layers: dict[str, str | None] = field(default_factory=dict)
+    #: Input role -> (path, SHA-256, file signature), taken when the inputs were read (io.hashing.fingerprint).
+    inputs: dict[str, tuple] = field(default_factory=dict)
 
     def warn(self, message: str) -> None:
         if message in self.warnings:  # sections repeat line-wide warnings
@@ -107,12 +112,33 @@ class RunContext:
                 self.warnings.append(message)
 
 
-def available_stages() -> dict[str, Stage]:
-    """Every stage registered in the entry-point group, by name, instantiated.
+#: The distribution whose stages are the built-in ones; their names are reserved.
+BUILTIN_DISTRIBUTION = "routesag"
 
-    A stage whose import fails becomes a :class:`BrokenStage`.
+
+class Registry(dict):
+    """Stages by name, plus every provider by ``distribution:name`` and the names several distributions claim."""
+
+    def __init__(self):
+        super().__init__()
+        self.qualified: dict[str, Stage] = {}
+        self.clashes: dict[str, list[str]] = {}
+
+
+def _distribution(ep) -> str:
+    dist = getattr(ep, "dist", None)
+    name = getattr(dist, "name", None) or (ep.value.split(".")[0] if ep.value else "?")
+    return name.lower().replace("_", "-")
+
+
+def available_stages() -> Registry:
+    """Every stage registered in the entry-point group, by name, instantiated; ``stage.distribution`` says whose.
+
+    A stage whose import fails becomes a :class:`BrokenStage`. A built-in name always means routesag's own
+    stage; another distribution registering it (or two plugins sharing a name) is recorded in ``clashes``
+    and refused by :func:`assemble_chain` unless the project names the provider as ``distribution:name``.
     """
-    stages: dict[str, Stage] = {}
+    stages = Registry()
     for ep in entry_points(group=ENTRY_POINT_GROUP):
         try:
             cls = ep.load()
@@ -121,27 +147,72 @@ def available_stages() -> dict[str, Stage]:
                 stage.name = ep.name
         except Exception as exc:  # a broken plugin must never break the CLI
             stage = BrokenStage(ep.name, exc)
-        stages.setdefault(ep.name, stage)
+        dist = _distribution(ep)
+        try:
+            stage.distribution = dist
+        except AttributeError:
+            pass
+        stages.qualified[f"{dist}:{ep.name}"] = stage
+        builtin_name = ep.name in DEFAULT_CHAIN
+        if ep.name in stages:
+            owner = getattr(stages[ep.name], "distribution", "")
+            if builtin_name and dist == BUILTIN_DISTRIBUTION and owner != BUILTIN_DISTRIBUTION:
+                stages.clashes.setdefault(ep.name, []).append(owner)
+                stages[ep.name] = stage
+            elif dist != owner:
+                stages.clashes.setdefault(ep.name, []).append(dist)
+            continue
+        stages[ep.name] = stage
     return stages
+
+
+def _resolve(extra, registry) -> tuple[list[Stage], set[str]]:
+    """The extra stages, ``distribution:name`` picking one provider; and the bare names so chosen."""
+    qualified = getattr(registry, "qualified", {})
+    unknown = [n for n in extra if n not in registry and n not in qualified]
+    if unknown:
+        raise PipelineError(f"unknown stage(s) {', '.join(map(repr, unknown))}; "
+                            f"registered: {', '.join(sorted(registry))}")
+    chosen = {n.split(":", 1)[1] for n in extra if ":" in n and n in qualified}
+    return [qualified.get(n) or registry[n] for n in dict.fromkeys(extra)], chosen
+
+
+def _refuse_clashes(registry, extra, chosen) -> None:
+    for name, others in getattr(registry, "clashes", {}).items():
+        if name in chosen:
+            continue
+        used = name in DEFAULT_CHAIN or name in extra
+        if not used:
+            continue
+        owner = getattr(registry[name], "distribution", "?")
+        claimants = sorted({owner, *others})
+        raise PipelineError(
+            f"stage name {name!r} is registered by several distributions ({', '.join(claimants)})"
+            + (f"; it is a built-in name, reserved for {BUILTIN_DISTRIBUTION}" if name in DEFAULT_CHAIN else "")
+            + f". Name the one to use in [pipeline] stages, e.g. stages = [\"{claimants[-1]}:{name}\"], "
+              "or uninstall the other package")
 
 
 def assemble_chain(extra: list[str] = (), registry: Mapping[str, Stage] | None = None) -> list[Stage]:
     """Build the ordered stage list: the built-in chain plus ``extra`` stages.
 
     An extra stage that provides a dataset a built-in stage provides replaces
-    that built-in stage. The chain is ordered so every stage runs after the
-    providers of what it requires. Raises PipelineError for an unknown stage,
-    a dataset nobody provides, two providers of one dataset, or a cycle.
+    that built-in stage; ``distribution:name`` picks one distribution's stage
+    (needed when several register the name). The chain is ordered so every
+    stage runs after the providers of what it requires. Raises PipelineError
+    for an unknown stage, a name several distributions claim, a dataset
+    nobody provides, two providers of one dataset, or a cycle.
     """
     registry = available_stages() if registry is None else registry
-    unknown = [n for n in list(DEFAULT_CHAIN) + list(extra) if n not in registry]
-    if unknown:
-        raise PipelineError(f"unknown stage(s) {', '.join(map(repr, unknown))}; "
+    missing_builtin = [n for n in DEFAULT_CHAIN if n not in registry]
+    if missing_builtin:
+        raise PipelineError(f"unknown stage(s) {', '.join(map(repr, missing_builtin))}; "
                             f"registered: {', '.join(sorted(registry))}")
-    added = [registry[n] for n in dict.fromkeys(extra)]
+    added, chosen = _resolve(list(extra), registry)
+    _refuse_clashes(registry, list(extra), chosen)
     replaced = {p for s in added for p in s.provides}
     chain = [registry[n] for n in DEFAULT_CHAIN
-             if n not in extra and not (set(registry[n].provides) & replaced)] + added
+             if n not in extra and n not in chosen and not (set(registry[n].provides) & replaced)] + added
     return order_stages(chain)
 
 
@@ -175,7 +246,26 @@ def order_stages(stages: list[Stage]) -> list[Stage]:
         ordered.append(ready[0])
         have.update(ready[0].provides)
         pending.remove(ready[0])
-    return ordered
+    return writer_last(ordered, requires)
+
+
+def writer_last(ordered: list[Stage], requires: Mapping[str, tuple[str, ...]]) -> list[Stage]:
+    """The same order with the writer (provider of :data:`WRITTEN`), and whatever needs what it wrote, at the end.
+
+    A stage that nothing requires would otherwise run after the writer: its failure would come after the
+    earlier output was replaced, and its notes and warnings would miss run_info.
+    """
+    late: set[str] = {s.name for s in ordered if WRITTEN in s.provides}
+    made = {d for s in ordered if s.name in late for d in s.provides}
+    grew = True
+    while grew:
+        grew = False
+        for stage in ordered:
+            if stage.name not in late and set(requires[stage.name]) & made:
+                late.add(stage.name)
+                made |= set(stage.provides)
+                grew = True
+    return [s for s in ordered if s.name not in late] + [s for s in ordered if s.name in late]
 
 
 def stages_for(chain: list[Stage], targets) -> list[Stage]:
@@ -259,6 +349,7 @@ def run_stages(stages: list[Stage], data: dict[str, Any], ctx: RunContext, progr
         missing = set(stage.provides) - set(result)
         if missing:
             raise RoutesagError(f"stage {stage.name!r} did not provide {', '.join(sorted(missing))}")
+        check_outputs(stage.name, result, data)
         data.update(result)
         for name, geometry in stage.output_layers.items():
             ctx.output_layers.setdefault(name, geometry)

@@ -100,8 +100,16 @@ def test_terrain_feet_declared_in_project_converted(tmp_path, metric_surveyed):
 
 
 def test_terrain_feet_not_declared_is_wrong_by_the_foot_factor(tmp_path, metric_surveyed):
-    """The control for the test above: undeclared feet put the ground 3.28x too high (about 230 m)."""
-    result = routesag.run(survey(tmp_path / "zft", terrain_factor=FOOT_M, surveyed_ground=True))
+    """The control for the test above: undeclared feet put the ground 3.28x too high (about 230 m).
+
+    The surveyed ground_z_m then disagrees with the terrain by far more than 5 m, so the run is refused;
+    with the mismatch allowed (a warning) the clearances come out wrong by the foot factor."""
+    project = survey(tmp_path / "zft", terrain_factor=FOOT_M, surveyed_ground=True)
+    with pytest.raises(routesag.DataError, match=r"structure P1: field 'ground_z_m' = .* but the terrain"):
+        routesag.run(project)
+    project.write_text(project.read_text().replace("[inputs]\n", "[inputs]\nground_z_mismatch = \"warn\"\n", 1))
+    result = routesag.run(project)
+    assert any("structure P1: field 'ground_z_m'" in w for w in result.warnings)
     got = result["conductors"]["min_clearance_m"].to_numpy()
     assert (got < metric_surveyed["min_clearance_m"].to_numpy() - 200.0).all()
 

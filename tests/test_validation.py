@@ -129,6 +129,32 @@ def no_cloud_but(toml: str):
     return lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "out.gpkg"\n' + toml)
 
 
+def vrt_with_missing_source(tmp: Path) -> Path:
+    project = good_survey(tmp)
+    (tmp / "tiles").mkdir()
+    (tmp / "terrain.tif").rename(tmp / "tiles" / "tile_1.tif")
+    import rasterio
+
+    with rasterio.open(tmp / "tiles" / "tile_1.tif") as ds:
+        width, height, transform = ds.width, ds.height, ds.transform
+    (tmp / "terrain.vrt").write_text(
+        f'<VRTDataset rasterXSize="{width}" rasterYSize="{height}"><SRS>EPSG:32633</SRS>'
+        f'<GeoTransform>{transform.c}, {transform.a}, 0, {transform.f}, 0, {transform.e}</GeoTransform>'
+        '<VRTRasterBand dataType="Float32" band="1"><SimpleSource>'
+        '<SourceFilename relativeToVRT="1">tiles/tile_1.tif</SourceFilename><SourceBand>1</SourceBand>'
+        '</SimpleSource><SimpleSource><SourceFilename relativeToVRT="1">tiles/tile_2.tif</SourceFilename>'
+        '<SourceBand>1</SourceBand></SimpleSource></VRTRasterBand></VRTDataset>')
+    return edit(project, 'terrain = "terrain.tif"', 'terrain = "terrain.vrt"')
+
+
+def csv_missing_column_with_a_bad_body(tmp: Path) -> Path:
+    """The header lacks 'seq'; the body is malformed, so reading it first would give another error."""
+    project = edit(good_survey(tmp, structures="s.csv"), 'terrain = "terrain.tif"',
+                   'terrain = "terrain.tif"\ncrs = "EPSG:32633"')
+    (tmp / "s.csv").write_text("structure_id,x,y\nP1,1,2\nP2,1,2,3,4,5\n" + "P3,1\n" * 1000)
+    return project
+
+
 @dataclass
 class Case:
     id: str
@@ -206,6 +232,44 @@ CASES = [
                                            "kind": ["strain", "pole"]}),
          DataError, (r"structure P2 \(row 2\): field 'kind' = 'pole' is not a known kind; accepted \(any case\): "
                      r"suspension \(suspension\), tangent \(suspension\), strain \(strain\), dead-end \(strain\)",)),
+    Case("ground_z_m in feet typed as metres",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                           "ground_z_m": [None, 351.0, None]}),
+         DataError, (r"structures\.gpkg: structure P2: field 'ground_z_m' = 351\.00 m but the terrain "
+                     r".*terrain\.tif is at 107\.00 m there \(244\.00 m apart, more than \[inputs\] "
+                     r"ground_z_tolerance_m = 5 m\)", r"ground_z_mismatch = \"warn\"")),
+    Case("ground_z_m beyond a tighter tolerance",
+         lambda tmp: edit(with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                                "ground_z_m": [None, 108.5, None]}),
+                          'terrain = "terrain.tif"', 'terrain = "terrain.tif"\nground_z_tolerance_m = 1.0'),
+         DataError, (r"structure P2: field 'ground_z_m' = 108\.50 m .*\(1\.50 m apart, more than \[inputs\] "
+                     r"ground_z_tolerance_m = 1 m",)),
+    Case("ground_z_m infinite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                           "ground_z_m": [None, float("inf"), None]}),
+         DataError, (r"structures\.gpkg: structure P2 \(row 2\): field 'ground_z_m' = inf is not a finite number",)),
+    Case("seq infinite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1.0, 2.0, -float("inf")]}),
+         DataError, (r"structure P3 \(row 3\): field 'seq' = -inf is not a finite number",)),
+    Case("insulator length infinite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2", "P3"], "seq": [1, 2, 3],
+                                           "insulator_m": [0.0, float("inf"), 0.0]}),
+         DataError, (r"structure P2 \(row 2\): field 'insulator_m' = inf is not a finite number",)),
+    Case("CSV field inf",
+         lambda tmp: (edit(good_survey(tmp, structures="s.csv"), 'terrain = "terrain.tif"',
+                           'terrain = "terrain.tif"\ncrs = "EPSG:32633"'),
+                      (tmp / "s.csv").write_text(f"structure_id,seq,x,y,ground_z_m\nP1,1,{X0},{Y0 + 200}\n"
+                                                 f"P2,2,{X0 + 300},{Y0 + 200},1e400\n"))[0],
+         DataError, (r"s\.csv: structure P2 \(row 2\): field 'ground_z_m' = inf is not a finite number",)),
+    Case("CSV coordinate inf",
+         lambda tmp: (edit(good_survey(tmp, structures="s.csv"), 'terrain = "terrain.tif"',
+                           'terrain = "terrain.tif"\ncrs = "EPSG:32633"'),
+                      (tmp / "s.csv").write_text(f"structure_id,seq,x,y\nP1,1,{X0},{Y0 + 200}\nP2,2,inf,{Y0}\n"))[0],
+         DataError, (r"s\.csv: row 2: x/y must be numbers",)),
+    Case("structure geometry not finite",
+         lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
+                                     shapely.points([(X0, Y0 + 200.0), (X0 + 300.0, float("nan"))])),
+         DataError, (r"structure P2 \(row 2\): geometry (has a coordinate that is not a finite number|is empty)",)),
     # -- places and CRS --------------------------------------------------------------------------------------
     Case("structure outside the terrain",
          lambda tmp: with_structures(tmp, {"structure_id": ["P1", "P2"], "seq": [1, 2]},
@@ -238,6 +302,13 @@ CASES = [
     Case("crossings in projected metres labelled lat/lon", with_crossings("EPSG:4326"), DataError,
          (r"crossings file .*crossings\.gpkg, layer 'crossings': feature 1 \(category 'road'\): coordinates "
           r"cannot be placed in the working CRS 'WGS 84 / UTM zone 33N'",)),
+    Case("crossings required_m infinite",
+         lambda tmp: (with_crossings(CRS)(tmp),
+                      write_layer(tmp / "crossings.gpkg", {"category": ["road"], "required_m": [float("inf")]},
+                                  [shapely.box(X0 + 140.0, Y0 + 150.0, X0 + 160.0, Y0 + 250.0)], CRS,
+                                  layer="crossings"))[0],
+         DataError, (r"crossings file .*crossings\.gpkg, layer 'crossings': feature 1 \(category 'road'\): field "
+                     r"'required_m' = inf is not a finite number",)),
     Case("crossings in a local grid", with_crossings(local_grid("metre", 1)), DataError,
          (r"crossings file .*crossings\.gpkg, layer 'crossings': CRS 'site grid' cannot be transformed to the "
           r"working CRS 'WGS 84 / UTM zone 33N'",)),
@@ -249,6 +320,10 @@ CASES = [
     Case("unknown CRS name",
          lambda tmp: edit(good_survey(tmp), 'terrain = "terrain.tif"', 'terrain = "terrain.tif"\ncrs = "UTM33"'),
          ProjectError, (r"\[inputs\]: crs = 'UTM33' is not a CRS PROJ knows",)),
+    Case("VRT whose source tile is missing", vrt_with_missing_source, DataError,
+         (r"terrain .*terrain\.vrt: its source file .*tiles/tile_2\.tif is missing",)),
+    Case("CSV missing a column is refused from its header", csv_missing_column_with_a_bad_body, DataError,
+         (r"s\.csv: missing required field 'seq'",)),
     # -- project file ----------------------------------------------------------------------------------------
     Case("TOML syntax error gives line and column",
          lambda tmp: edit(good_survey(tmp), "ground_m = 7.5", "ground_m = = 7.5"),
@@ -277,6 +352,13 @@ CASES = [
          SolveError, (r"tension section A:P1-P3, load case 'cold': change of state cannot be solved",
                       r"tension section A:P3-P4, load case 'cold': change of state cannot be solved",
                       r"thermal strain shrinks the wire to nothing")),
+    Case("modulus typed in Pa as GPa: no convergence, no numpy warnings",
+         lambda tmp: edit(good_survey(tmp), "modulus_gpa = 70.0", "modulus_gpa = 7e250"),
+         SolveError, (r"tension section A:P1-P3, load case 'hot': change of state cannot be solved \(section change "
+                      r"of state did not converge", r"check the conductor's modulus")),
+    Case("modulus absurdly small: overflow inside the catenary, reported without numpy warnings",
+         lambda tmp: edit(good_survey(tmp), "modulus_gpa = 70.0", "modulus_gpa = 1e-9"),
+         SolveError, (r"tension section A:P1-P3, load case 'hot': change of state cannot be solved",)),
     Case("wire's own stringing without a creep allowance in a final case", wire_without_creep_allowance,
          ProjectError, (r"project\.toml: \[\[wires\]\] #1 \('E'\) stringing: missing key 'creep_allowance_c'.*"
                         r"give creep_allowance_c \(0 for a wire that does not creep\)",)),
@@ -308,6 +390,12 @@ CASES = [
          lambda tmp: (good_survey(tmp).write_text("a = " + "[" * 200_000 + "]" * 200_000 + "\n"),
                       tmp / "project.toml")[1],
          ProjectError, (r"project\.toml: tables or lists are nested too deeply to read",)),
+    Case("wire offset beyond any cross-arm (span inf m before)",
+         lambda tmp: good_survey(tmp, extra='[[wires]]\nname = "L1"\noffset_m = 1e308\n'),
+         ProjectError, (r"\[\[wires\]\] #1: offset_m = 1e\+308 must be between -100 and 100",)),
+    Case("wire height beyond any structure",
+         lambda tmp: good_survey(tmp, extra='[[wires]]\nname = "E"\ndz_m = -250.0\n'),
+         ProjectError, (r"\[\[wires\]\] #1: dz_m = -250\.0 must be between -100 and 100",)),
     Case("plugin stage list holds a number",
          lambda tmp: edit(good_survey(tmp), 'path = "out.gpkg"', 'path = "out.gpkg"\n[pipeline]\nstages = [3]'),
          ProjectError, (r"\[pipeline\]: stages = \[3\] must list stage names as text",)),
@@ -374,13 +462,22 @@ def test_api_raises_the_named_error(case, tmp_path):
 @pytest.mark.parametrize("case", CASES, ids=idfn)
 def test_cli_exits_2_with_the_message_and_no_traceback(case, tmp_path):
     project = case.build(tmp_path)
+    before = folder_snapshot(tmp_path)
     result = CliRunner().invoke(main, ["run", str(project)])
     assert result.exit_code == 2, result.output
-    assert "Traceback" not in result.output
+    assert "Traceback" not in result.output and "RuntimeWarning" not in result.output
     for pattern in case.match:
         assert _search(pattern, result.output), f"{pattern!r} not in:\n{result.output}"
     assert not (tmp_path / "out.gpkg").exists()
-    assert not [p.name for p in tmp_path.iterdir() if ".tmp-" in p.name]
+    assert folder_snapshot(tmp_path) == before   # nothing written, nothing changed, no temporary file left
+
+
+def folder_snapshot(folder: Path) -> dict:
+    """Every regular file under ``folder`` with its bytes' SHA-256, to show a failed run changed nothing."""
+    import hashlib
+
+    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
 def test_project_file_with_a_utf8_byte_order_mark_runs(tmp_path):
@@ -429,3 +526,4 @@ def test_every_problem_of_the_project_file_in_one_report(tmp_path):
     assert "unknown key 'grund_m'; did you mean 'ground_m'?" in text
     assert "mass_kg_m = True has the wrong type: expected a number, got true/false" in text
     assert "horizontal_tension_kn = -1.0 must be > 0" in text
+

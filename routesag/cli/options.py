@@ -5,6 +5,7 @@ import functools
 import logging
 import sys
 import traceback
+import warnings
 
 import click
 
@@ -52,7 +53,11 @@ def handle_errors(func):
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         try:
-            return func(*args, **kwargs)
+            with warnings.catch_warnings():
+                if not logging.getLogger().isEnabledFor(logging.DEBUG):
+                    # numpy's overflow notes on absurd input print source lines before the clear error; -vv shows them
+                    warnings.simplefilter("ignore", RuntimeWarning)
+                return func(*args, **kwargs)
         except RoutesagError as exc:
             raise CommandError(str(exc), exit_code_for(exc)) from None
         except (click.ClickException, click.exceptions.Exit, click.Abort, KeyboardInterrupt):

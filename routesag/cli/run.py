@@ -20,8 +20,9 @@ from routesag.cli.options import (
 def run_command(project, out, fail_on_violation, workers, scheduler, per_span, all_violations, units):
     """Compute conductors and clearances for PROJECT (a TOML project file)."""
     from routesag.api import run
+    from routesag.cli.signals import terminate_as_interrupt
     from routesag.progress import section_progress
 
-    with section_progress(is_quiet()) as on_section:
+    with terminate_as_interrupt(), section_progress(is_quiet()) as on_section:
         result = run(project, out=out, workers=workers, scheduler=scheduler, on_section=on_section)
     finish(result, fail_on_violation, per_span, all_violations, units)

@@ -41,7 +41,7 @@ def read_crossings_file(path, layer=None) -> gpd.GeoDataFrame:
     """
     path = Path(path)
     where = f"crossings file {path}"
-    if not path.is_file():
+    if not path.exists():  # a folder may be a dataset (FileGDB, a folder of shapefiles): GDAL decides
         raise DataError(f"{where}: not found")
     try:
         layers = [name for name, _ in pyogrio.list_layers(path)]

@@ -6,7 +6,6 @@ failed or interrupted run therefore leaves the previous output as it was.
 """
 
 import os
-import secrets
 from pathlib import Path
 
 import geopandas as gpd
@@ -16,6 +15,7 @@ import pyogrio.errors
 
 from routesag.errors import DataError, OutputError
 from routesag.io.gpkg_version import DEFAULT_VERSION, stamp_version
+from routesag.io.outputs_guard import check_output_target, keep_mode, temporary_path, write_error
 
 #: Files SQLite may create beside a GeoPackage while it is being written.
 _SQLITE_SIDECARS = ("-journal", "-wal", "-shm")
@@ -65,15 +65,19 @@ def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION):
     prepared = [_prepare_layer(name, spec) for name, spec in layers.items()]
     if not prepared:
         raise OutputError(f"no layers to write to {destination}")
-    temporary = _temporary_path(destination)
+    temporary = temporary_path(destination)
     try:
         for name, frame, geometry_type in prepared:
             _write_one(temporary, name, frame, geometry_type)
         stamp_version(temporary, version)
         _fsync(temporary)
+        keep_mode(temporary, destination)
         os.replace(temporary, destination)
-    except BaseException:
+    except BaseException as exc:
         _remove_with_sidecars(temporary)
+        told = write_error(exc, destination)
+        if told is not None:
+            raise told from None
         raise
 
 
@@ -104,6 +108,7 @@ def read_layer(path, layer):
 
 
 def _check_destination(destination, protect):
+    check_output_target(destination, protect)
     folder = destination.parent.resolve()
     if not folder.is_dir():
         raise OutputError(f"output folder {folder} does not exist")
@@ -153,14 +158,6 @@ def _write_one(temporary, name, frame, geometry_type):
     # no crs argument), and writes a plain DataFrame as an attribute table.
     pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG",
                             geometry_type=geometry_type)
-
-
-def _temporary_path(destination):
-    """Hidden, not-yet-existing ``.<stem>.tmp-<random>.gpkg`` beside the target."""
-    while True:
-        candidate = destination.with_name(f".{destination.stem}.tmp-{secrets.token_hex(6)}.gpkg")
-        if not candidate.exists():
-            return candidate
 
 
 def _fsync(path):

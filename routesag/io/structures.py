@@ -17,7 +17,8 @@ import shapely
 from pyproj import CRS
 from pyproj.exceptions import CRSError, ProjError
 
-from routesag.errors import DataError
+from routesag.errors import DataError, cut
+from routesag.io.crs_checks import MAX_SCALE_DISTORTION, centre_lon_lat, local_conformal_crs, scale_distortion
 from routesag.io.fields import (
     apply_field_map, coordinate_columns, decimal_commas_to_numbers, hint_for_missing, sniff_separator,
 )
@@ -39,7 +40,7 @@ HEIGHT_FACTORS = {"m": 1.0, "ft": 0.3048, "ftUS": 1200.0 / 3937.0}
 FEET_SUSPECT_MIN = 30.0
 
 
-def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=None) -> gpd.GeoDataFrame:
+def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=None, fields=None) -> gpd.GeoDataFrame:
     """Read structures from any vector source GDAL reads, or a CSV with coordinate columns.
 
     A CSV's separator (, ; tab |) is sniffed and decimal commas are read; its
@@ -57,12 +58,14 @@ def read_structures_file(path, layer=None, crs=None, x_column=None, y_column=Non
         CRS for a source that has none (needed for a CSV without lon/lat columns).
     x_column, y_column : str, optional
         A CSV's coordinate columns.
+    fields : dict, optional
+        ``[inputs.fields]``; given, a CSV's header is checked for the required fields before its body is read.
     """
     path = Path(path)
-    if not path.is_file():
+    if not path.exists():
         raise DataError(f"structures file {path}: not found")
-    if path.suffix.lower() in (".csv", ".txt"):
-        return _read_csv(path, crs, x_column, y_column)
+    if path.is_file() and path.suffix.lower() in (".csv", ".txt"):
+        return _read_csv(path, crs, x_column, y_column, fields)
     try:
         layers = [name for name, _ in pyogrio.list_layers(path)]
     except Exception as exc:  # GDAL raises several types for unreadable files
@@ -103,16 +106,26 @@ def _set_crs(gdf, crs, path):
                         "(give e.g. 'EPSG:32633')") from None
 
 
-def _read_csv(path: Path, crs, x_column=None, y_column=None) -> gpd.GeoDataFrame:
+def _read_csv(path: Path, crs, x_column=None, y_column=None, fields=None) -> gpd.GeoDataFrame:
     where = f"structures file {path}"
     try:
         with path.open(encoding="utf-8-sig", newline="") as fh:
             separator = sniff_separator(fh.read(8192))
+        header = pd.read_csv(path, sep=separator, encoding="utf-8-sig", nrows=0)
+    except Exception as exc:
+        raise DataError(f"{where}: cannot be read as CSV ({_short(exc)})") from None
+    # The header alone tells a missing column: a large file is not read before saying so.
+    header.columns = [str(c).strip() for c in header.columns]
+    x, y, degrees = coordinate_columns(header.columns, x_column, y_column, where)
+    if fields is not None:
+        missing = missing_required_fields(apply_field_map(header, fields, FIELDS, where)[0], where)
+        if missing:
+            raise DataError(missing)
+    try:
         df = decimal_commas_to_numbers(pd.read_csv(path, sep=separator, encoding="utf-8-sig"))
     except Exception as exc:
         raise DataError(f"{where}: cannot be read as CSV ({_short(exc)})") from None
     df.columns = [str(c).strip() for c in df.columns]
-    x, y, degrees = coordinate_columns(df.columns, x_column, y_column, where)
     note = f"CSV separator {separator!r}; coordinates from columns {x!r}, {y!r}"
     if not crs and degrees:
         crs, note = "EPSG:4326", note + " read as WGS 84 lon/lat (no [inputs] crs)"
@@ -176,9 +189,7 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
         warn(message)
     if gdf.crs is None:
         problems.append(f"{where}: no CRS; give the layer a CRS or set [inputs] crs in the project file")
-    for name in REQUIRED_FIELDS:
-        if name not in gdf.columns:
-            problems.append(f"{where}: missing required field {name!r}{hint_for_missing(name, gdf.columns)}")
+    problems += missing_required_fields(gdf, where)
     if problems:
         raise DataError(problems)
 
@@ -205,6 +216,12 @@ def check_structures(gdf: gpd.GeoDataFrame, source, default_attach_height_m=None
     return out
 
 
+def missing_required_fields(frame, where) -> list[str]:
+    """A message for each required field the frame (after the field map) lacks, with a hint at a near name."""
+    return [f"{where}: missing required field {name!r}{hint_for_missing(name, frame.columns)}"
+            for name in REQUIRED_FIELDS if name not in frame.columns]
+
+
 def _warn_feet(gdf, height_units, default_m, where, warn) -> None:
     """Heights that look like feet in a feet CRS, with no unit declared: a loud warning."""
     if height_units is not None or gdf.crs is None or "attach_height_m" not in gdf.columns:
@@ -226,11 +243,18 @@ def _label(i: int, sid) -> str:
 def _numeric(series, name, labels, where, problems, required=False) -> np.ndarray:
     values = pd.to_numeric(series, errors="coerce").to_numpy(dtype=float)
     for i, (raw, val) in enumerate(zip(series, values)):
-        if np.isnan(val) and not pd.isna(raw):
-            problems.append(f"{where}: {labels[i]}: field {name!r} = {raw!r} is not a number")
+        if np.isinf(val):
+            problems.append(f"{where}: {labels[i]}: field {name!r} = {val:g} is not a finite number")
+        elif np.isnan(val) and not pd.isna(raw):
+            problems.append(f"{where}: {labels[i]}: field {name!r} = {_shown(raw)} is not a number")
         elif np.isnan(val) and required:
             problems.append(f"{where}: {labels[i]}: field {name!r} is empty")
     return values
+
+
+def _shown(raw) -> str:
+    """A field's raw value for a message, a long text cut in the middle."""
+    return repr(cut(raw)) if isinstance(raw, str) else repr(raw)
 
 
 def _kinds(gdf, labels, where, problems) -> tuple[list[str], list[str]]:
@@ -294,6 +318,9 @@ def _check_geometry(out, labels, where, problems) -> None:
             problems.append(f"{where}: {labels[i]}: geometry is empty")
         elif geom.geom_type != "Point":
             problems.append(f"{where}: {labels[i]}: geometry is {geom.geom_type}; expected Point")
+        elif not np.isfinite([geom.x, geom.y]).all():
+            problems.append(f"{where}: {labels[i]}: geometry has a coordinate that is not a finite number "
+                            f"({geom.x!r}, {geom.y!r})")
 
 
 def _check_duplicates(out, labels, where, problems) -> None:
@@ -310,22 +337,32 @@ def _check_duplicates(out, labels, where, problems) -> None:
                             "a line needs at least two")
 
 
-def working_crs(crs: CRS, lon_lat_center=None) -> tuple[CRS, str]:
+def working_crs(crs: CRS, lon_lat_center=None, lon_lat_points=None) -> tuple[CRS, str]:
     """A projected CRS in metres for span geometry, and a note saying why.
 
-    Geographic or non-metre CRSs are replaced by the UTM zone of the data's
-    centre (WGS 84), so spans are measured in metres.
+    A projected CRS in metres is kept when its scale factor at the structures
+    (``lon_lat_points``, default the centre) is within
+    :data:`~routesag.io.crs_checks.MAX_SCALE_DISTORTION` of 1. Geographic or
+    non-metre CRSs, and projected ones that distort lengths more (Web Mercator
+    away from the equator), are replaced by a local conformal CRS at the
+    data's centre (see :func:`~routesag.io.crs_checks.local_conformal_crs`),
+    so spans are measured in true metres.
     """
     crs = CRS.from_user_input(crs)
     unit = crs.axis_info[0].unit_name if crs.axis_info else ""
-    if crs.is_projected and unit in ("metre", "meter"):
-        return crs, f"structures CRS {crs.to_string()} used as is (projected, metres)"
     lon, lat = lon_lat_center
-    zone = int((lon + 180) // 6) + 1
-    epsg = (32600 if lat >= 0 else 32700) + zone
-    utm = CRS.from_epsg(epsg)
-    why = "geographic (lat/lon)" if crs.is_geographic else f"horizontal unit {unit!r}"
-    return utm, f"structures CRS {crs.to_string()} is {why}: reprojected to {utm.to_string()} (UTM zone {zone})"
+    if crs.is_projected and unit in ("metre", "meter"):
+        points = lon_lat_points if lon_lat_points is not None else ([lon], [lat])
+        distortion = scale_distortion(crs, *points)
+        if distortion is None or distortion <= MAX_SCALE_DISTORTION:
+            measured = "" if distortion is None else f", scale factor within {100 * distortion:.3g} % of 1"
+            return crs, f"structures CRS {crs.to_string()} used as is (projected, metres{measured})"
+        why = (f"projected but its scale factor at the structures departs from 1 by up to {100 * distortion:.3g} % "
+               f"(more than {100 * MAX_SCALE_DISTORTION:g} %: spans and sags would be wrong)")
+    else:
+        why = "geographic (lat/lon)" if crs.is_geographic else f"horizontal unit {unit!r}"
+    local, name = local_conformal_crs(lon, lat)
+    return local, f"structures CRS {crs.to_string()} is {why}: reprojected to {local.to_string()} ({name})"
 
 
 def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, CRS, str]:
@@ -353,8 +390,7 @@ def to_working_crs(gdf: gpd.GeoDataFrame, source="") -> tuple[gpd.GeoDataFrame, 
                          f"({x:.6g}, {y:.6g}) are not a place on earth in CRS {CRS(gdf.crs).to_string()}; "
                          "check the CRS (projected metres read as degrees?)"
                          for sid, x, y in zip(gdf.loc[bad, "structure_id"], gdf.geometry.x[bad], gdf.geometry.y[bad])])
-    center = lon_lat.geometry.union_all().centroid
-    crs, note = working_crs(gdf.crs, (center.x, center.y))
+    crs, note = working_crs(gdf.crs, centre_lon_lat(lon, lat), (lon, lat))
     return (gdf if CRS(gdf.crs) == crs else reproject(gdf, crs, where, repr(crs.name))), crs, note
 
 

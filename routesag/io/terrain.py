@@ -11,7 +11,9 @@ import sys
 import threading
 from dataclasses import dataclass
 from pathlib import Path
+from xml.etree import ElementTree
 
+import affine
 import numpy as np
 import pyproj
 import rasterio
@@ -27,6 +29,13 @@ Z_UNIT_FACTORS = {
     "ft": 0.3048,           # international foot (1959)
     "ftUS": 1200.0 / 3937.0,  # US survey foot
 }
+
+#: Elevations outside this range are taken for fill values (voids written as -9999, -32768, -3.4e38 ... with no
+#: nodata tag) and read as nodata [m]. The lowest dry land is about -430 m and the highest summit about 8850 m
+#: (common practice: the usual plausibility bounds of a terrain model).
+PLAUSIBLE_Z_M = (-500.0, 9000.0)
+#: Distinct implausible values remembered per raster for the warning.
+_SUSPECT_VALUES_KEPT = 8
 
 
 class TerrainSampler:
@@ -45,6 +54,13 @@ class TerrainSampler:
         A vertical axis in feet declared by the raster CRS (compound CRS)
         takes precedence, so a factor is never applied twice; what was
         applied is in :attr:`z_unit_note`.
+    crs : str, optional
+        CRS for a raster that has none ([inputs] terrain_crs).
+    nodata : float, optional
+        A stored value that means "no data" although the raster does not tag
+        it ([inputs] terrain_nodata). Whatever is declared, stored values
+        that convert to elevations outside :data:`PLAUSIBLE_Z_M` are read as
+        nodata too and listed in :attr:`implausible_values`.
 
     Attributes
     ----------
@@ -94,10 +110,14 @@ class TerrainSampler:
     sparse_tile = 64
     cache_mb = 64
 
-    def __init__(self, path, z_units="m", crs=None):
+    def __init__(self, path, z_units="m", crs=None, nodata=None):
         self._path = Path(path)
         self.crs_note = ""
         self._z_units = z_units
+        self._assigned_crs = crs
+        self._declared_nodata = None if nodata is None else float(nodata)
+        #: Implausible stored values met so far (read as nodata) -> number of cells.
+        self.implausible_values: dict[float, int] = {}
         if z_units not in Z_UNIT_FACTORS:
             raise DataError(f"terrain {self._path}: z_units {z_units!r} is not one of "
                             f"{', '.join(Z_UNIT_FACTORS)}")
@@ -128,14 +148,20 @@ class TerrainSampler:
         self._transformers = {}
         flags = set(self._ds.mask_flag_enums[0])
         self._mask_from_nodata = flags <= {MaskFlags.nodata, MaskFlags.all_valid}
-        self._inverse = ~self._ds.transform
+        try:
+            self._inverse = ~self._ds.transform
+        except affine.AffineError as exc:  # a corrupt geotransform (zero pixel size)
+            message = (f"terrain {self._path}: its geotransform {tuple(self._ds.transform)[:6]} cannot be "
+                       f"inverted (zero pixel size?); the file may be corrupt ({_first_line(exc)})")
+            self.close()
+            raise DataError(message) from None
         self.sample_window_count = 0
         self.last_window = None
 
     # -- lifecycle -----------------------------------------------------------------
     def reference(self) -> "RasterRef":
         """What another process needs to open this raster itself (an open handle cannot be pickled)."""
-        return RasterRef(str(self._path), self._z_units)
+        return RasterRef(str(self._path), self._z_units, self._assigned_crs, self._declared_nodata)
 
     def __reduce__(self):
         raise TypeError("a TerrainSampler holds an open raster and cannot be pickled; send .reference()")
@@ -389,9 +415,33 @@ class TerrainSampler:
         nodata = self._ds.nodata
         if self._mask_from_nodata and nodata is not None and not np.isnan(nodata):
             z[z == nodata] = np.nan
+        if self._declared_nodata is not None:
+            z[z == self._declared_nodata] = np.nan
         self.sample_window_count += 1
         self.last_window = window
-        return (z * self._scale + self._offset) * self.z_factor
+        return self._mask_implausible(z, (z * self._scale + self._offset) * self.z_factor)
+
+    def _mask_implausible(self, stored, metres):
+        """Elevations no terrain has (an untagged fill value) become NaN; the stored values are remembered."""
+        low, high = PLAUSIBLE_Z_M
+        with np.errstate(invalid="ignore"):
+            bad = (metres < low) | (metres > high)
+        if bad.any():
+            values, counts = np.unique(stored[bad], return_counts=True)
+            for value, count in zip(values.tolist(), counts.tolist()):
+                if value in self.implausible_values or len(self.implausible_values) < _SUSPECT_VALUES_KEPT:
+                    self.implausible_values[value] = self.implausible_values.get(value, 0) + count
+            metres[bad] = np.nan
+        return metres
+
+    def implausible_warnings(self, label="terrain", key="terrain_nodata"):
+        """One loud sentence per implausible stored value met, naming the raster and the value."""
+        low, high = PLAUSIBLE_Z_M
+        return [f"{label} {self._path}: CELLS OF VALUE {value:.10g} READ AS NODATA: that is no elevation on earth "
+                f"(outside {low:g} to {high:g} m) and the raster does not tag it as nodata, so it is taken for "
+                f"a fill value of a void; clearance there is unknown, never clear. Declare it with [inputs] "
+                f"{key} = {value:.10g} to confirm, or fix the raster"
+                for value in sorted(self.implausible_values)]
 
     def _window_covering_box(self, box):
         """Smallest in-raster window holding every cell centre inside ``box``."""
@@ -419,6 +469,10 @@ def _open_single_band(path, assigned_crs=None):
     if not path.is_file():
         raise DataError(f"terrain {path} cannot be opened: file not found"
                         + (" (it is a folder)" if path.is_dir() else ""))
+    missing = _missing_vrt_sources(path)
+    if missing:
+        raise DataError([f"terrain {path}: its source file {source} is missing; restore it or rebuild the VRT"
+                         for source in missing])
     try:
         with _quiet_undecodable_gdal_messages():
             ds = rasterio.open(path)
@@ -433,6 +487,28 @@ def _open_single_band(path, assigned_crs=None):
         ds.close()
         raise DataError(problem)
     return ds
+
+
+def _missing_vrt_sources(path) -> list[str]:
+    """Source files a VRT names that do not exist (GDAL would only say the VRT is corrupt); [] for other files.
+
+    Sources on GDAL virtual file systems (``/vsi...``) and anything that is not a plain path are not checked.
+    """
+    if path.suffix.lower() != ".vrt":
+        return []
+    try:
+        root = ElementTree.parse(path).getroot()
+    except (ElementTree.ParseError, OSError):
+        return []   # not XML: GDAL's own error names the file
+    missing = []
+    for element in root.iter("SourceFilename"):
+        name = (element.text or "").strip()
+        if not name or name.startswith("/vsi") or ":" in name[2:]:
+            continue
+        source = path.parent / name if element.get("relativeToVRT", "0") == "1" else Path(name)
+        if not source.exists() and str(source) not in missing:
+            missing.append(str(source))
+    return missing
 
 
 def _parse_crs(path, ds, assigned=None):
@@ -546,11 +622,14 @@ class RasterRef:
 
     path: str
     z_units: str = "m"
+    crs: str | None = None
+    nodata: float | None = None
 
     def open(self) -> TerrainSampler:
         sampler = _OPEN_IN_PROCESS.get(self)
         if sampler is None:
-            sampler = _OPEN_IN_PROCESS[self] = TerrainSampler(self.path, z_units=self.z_units)
+            sampler = _OPEN_IN_PROCESS[self] = TerrainSampler(self.path, z_units=self.z_units, crs=self.crs,
+                                                              nodata=self.nodata)
         return sampler
 
 

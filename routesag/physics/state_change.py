@@ -170,7 +170,11 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
     if low is None:
         raise SolveError(f"change of state has no solution with a horizontal tension between "
                          f"{low_limit:.4g} N and {high_limit:.4g} N ({describe})")
-    return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
+    try:
+        return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
+    except RuntimeError as exc:  # no convergence: properties so far from a real wire that the residual is flat
+        raise SolveError(f"change of state did not converge ({exc}); check the conductor's modulus, mass and "
+                         "expansion for a unit or typing error") from None
 
 
 def _unstressed_length(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):

@@ -10,6 +10,9 @@ from routesag.physics.clearance_rules import DEFAULT_ADDER_ABOVE_KV, DEFAULT_ADD
 REQUIRED = object()
 #: Highest credible conductor attachment above ground [m]; more is a unit or typing error.
 MAX_ATTACH_HEIGHT_M = 200.0
+#: Largest credible wire position from the structure centre, across or up [m] (common practice: the widest
+#: cross-arms and the tallest earth-wire peaks are a few tens of metres).
+MAX_WIRE_POSITION_M = 100.0
 
 
 @dataclass(frozen=True)
@@ -30,6 +33,12 @@ def positive(value):
 
 def non_negative(value):
     return None if value >= 0 else "must be >= 0"
+
+
+def within(limit):
+    def check(value):
+        return None if abs(value) <= limit else f"must be between -{limit:g} and {limit:g}"
+    return check
 
 
 def up_to(high):
@@ -159,6 +168,12 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "surface_values": Key(str, "elevation", one_of("elevation", "height"),
                               "surface raster holds elevations (DSM) or heights above the terrain"),
         "terrain_crs": Key(str, None, crs_text, doc="CRS of a terrain raster that has none"),
+        "terrain_nodata": Key(NUMBER, None, doc="stored value of terrain voids the raster does not tag"),
+        "surface_nodata": Key(NUMBER, None, doc="stored value of surface model voids the raster does not tag"),
+        "ground_z_tolerance_m": Key(NUMBER, 5.0, positive,
+                                    "largest difference between a surveyed ground_z_m and the terrain [m]"),
+        "ground_z_mismatch": Key(str, "refuse", one_of("refuse", "warn"),
+                                 "a ground_z_m beyond the tolerance: refuse the run, or warn and use it"),
         "x_column": Key(str, None, doc="CSV column of the x (easting or longitude) coordinate"),
         "y_column": Key(str, None, doc="CSV column of the y (northing or latitude) coordinate"),
         "height_units": Key(str, None, one_of("m", "ft", "ftUS"),
@@ -230,9 +245,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "wires": {
         "name": Key(str, doc="wire name, e.g. a phase label or the earth wire"),
-        "offset_m": Key(NUMBER, 0.0, doc="horizontal offset from the structure centre, + to the right "
+        "offset_m": Key(NUMBER, 0.0, within(MAX_WIRE_POSITION_M), doc="horizontal offset from the structure centre, + to the right "
                                           "looking along increasing seq [m]"),
-        "dz_m": Key(NUMBER, 0.0, doc="height above the structure's attach_height_m [m]"),
+        "dz_m": Key(NUMBER, 0.0, within(MAX_WIRE_POSITION_M), doc="height above the structure's attach_height_m [m]"),
         "insulated": Key(bool, True, doc="hangs from the structure's suspension string (insulator_m); "
                                          "false for a wire clamped to the structure, e.g. an earth wire"),
         "conductor": Key(dict, None, doc="the wire's own conductor (keys as [conductor])"),

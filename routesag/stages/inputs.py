@@ -5,9 +5,11 @@ import numpy as np
 
 from routesag.errors import DataError
 from routesag.io.extents import extent_message
+from routesag.io.hashing import fingerprint
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
+from routesag.stages.terrain import warn_implausible
 
 
 class ReadInputs(Stage):
@@ -19,11 +21,16 @@ class ReadInputs(Stage):
     def run(self, data, ctx):
         project = data["project"]
         source = project.structures_path
+        record_inputs(project, ctx)
         structures, terrain = read_and_check(project, ctx)
         try:
             original = structures.copy()
             structures, crs, note = to_working_crs(structures, source)
-            structures = locate_attachments(structures, terrain, source, original)
+            try:
+                structures = locate_attachments(structures, terrain, source, original)
+                check_surveyed_ground(structures, terrain, source, project.settings.get("inputs", {}), ctx.warn)
+            finally:
+                warn_implausible(ctx, terrain)
         except BaseException:
             terrain.close()
             raise
@@ -34,6 +41,13 @@ class ReadInputs(Stage):
         if terrain.crs_note:
             ctx.notes["terrain_crs_note"] = terrain.crs_note
         return {"structures": structures, "terrain": terrain, "work_crs": crs}
+
+
+def record_inputs(project, ctx) -> None:
+    """Hash every input as the run starts reading them; run_info reports these, not a later file's."""
+    for role, path in project.input_paths().items():
+        if path.exists():
+            ctx.inputs[role] = (path, *fingerprint(path))
 
 
 def read_and_check(project, ctx=None):
@@ -50,7 +64,7 @@ def read_and_check(project, ctx=None):
     warn = ctx.warn if ctx is not None else None
     try:
         raw = read_structures_file(project.structures_path, project.structures_layer, project.structures_crs,
-                                   inputs.get("x_column"), inputs.get("y_column"))
+                                   inputs.get("x_column"), inputs.get("y_column"), inputs.get("fields") or {})
         if ctx is not None and raw.attrs.get("note"):
             ctx.notes["structures_columns"] = raw.attrs["note"]
         structures = check_structures(raw, project.structures_path, project.attach_height_m,
@@ -62,7 +76,7 @@ def read_and_check(project, ctx=None):
         problems.extend(exc.problems)
     try:
         terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units,
-                                 crs=inputs.get("terrain_crs"))
+                                 crs=inputs.get("terrain_crs"), nodata=inputs.get("terrain_nodata"))
     except DataError as exc:
         problems.extend(exc.problems)
     if problems:
@@ -100,5 +114,40 @@ def locate_attachments(structures, terrain, source, original=None):
                          "or extend the terrain"
                          for sid, is_inside in zip(s.loc[missing, "structure_id"], inside)])
     s["ground_z_m"] = ground
+    s["ground_z_surveyed"] = ~need
     s["attach_z_m"] = ground + s["attach_height_m"].to_numpy(dtype=float)
     return s
+
+
+def check_surveyed_ground(structures, terrain, source, inputs, warn) -> None:
+    """Compare each surveyed ground_z_m with the terrain at the structure; refuse (or warn) beyond the tolerance.
+
+    A ground elevation in feet typed as metres, or a slip of a digit, lifts or drops the whole span and can
+    hide a real violation. Where the terrain has no value the surveyed one stands unchecked.
+
+    Parameters
+    ----------
+    inputs : mapping
+        ``[inputs]``: ``ground_z_tolerance_m`` (default 5 m) and ``ground_z_mismatch`` ("refuse" or "warn").
+    """
+    surveyed = structures["ground_z_surveyed"].to_numpy(dtype=bool)
+    if not surveyed.any():
+        return
+    tolerance_m = float(inputs.get("ground_z_tolerance_m", 5.0))
+    given = structures["ground_z_m"].to_numpy(dtype=float)[surveyed]
+    terrain_z = terrain.sample(structures["x"].to_numpy()[surveyed], structures["y"].to_numpy()[surveyed],
+                               crs=structures.crs)
+    with np.errstate(invalid="ignore"):
+        far = np.abs(given - terrain_z) > tolerance_m
+    ids = structures.loc[surveyed, "structure_id"].to_numpy()
+    refuse = inputs.get("ground_z_mismatch", "refuse") == "refuse"
+    messages = [f"structures file {source}: structure {sid}: field 'ground_z_m' = {z:.2f} m but the terrain "
+                f"{terrain.path} is at {t:.2f} m there ({abs(z - t):.2f} m apart, more than [inputs] "
+                f"ground_z_tolerance_m = {tolerance_m:g} m); check the value and its unit (feet read as metres?)"
+                + ("; set [inputs] ground_z_mismatch = \"warn\" to use it anyway" if refuse
+                   else "; the surveyed value is used ([inputs] ground_z_mismatch = \"warn\")")
+                for sid, z, t in zip(ids[far], given[far], terrain_z[far])]
+    if messages and refuse:
+        raise DataError(messages)
+    for message in messages:
+        warn(message)

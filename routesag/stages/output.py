@@ -13,7 +13,7 @@ import shapely
 from routesag import __version__
 from routesag.io.gpkg import write_layers
 from routesag.io.gpkg_version import DEFAULT_VERSION
-from routesag.io.hashing import sha256_file
+from routesag.io.hashing import input_sha256
 from routesag.pipeline import Stage
 from routesag.stages.tidy import tidy_layers
 
@@ -67,7 +67,10 @@ class WriteGeoPackage(Stage):
 
     def run(self, data, ctx):
         project = data["project"]
-        write_layers(project.output_path, data["layers"], protect=tuple(project.input_paths().values()),
+        layers = data["layers"]
+        if "run_info" in layers:  # rebuilt now, so the notes and warnings of every stage before the writer are in it
+            layers["run_info"] = (run_info_table(project, ctx), None)
+        write_layers(project.output_path, layers, protect=tuple(project.input_paths().values()),
                      version=project.settings.get("output", {}).get("gpkg_version", DEFAULT_VERSION))
         return {"geopackage": project.output_path}
 
@@ -197,7 +200,7 @@ def run_info_table(project, ctx) -> pd.DataFrame:
             ("caution", CAUTION)]
     for role, path in project.input_paths().items():
         rows.append((f"input.{role}", str(path)))
-        rows.append((f"input.{role}.sha256", sha256_file(path)))
+        rows.append((f"input.{role}.sha256", input_sha256(role, path, ctx)))
     for key, value in sorted(ctx.notes.items()):
         rows.append((f"note.{key}", value if isinstance(value, str) else json.dumps(value)))
     for table, values in project.settings.items():

@@ -56,7 +56,7 @@ def _line_spans(line_id: str, line: pd.DataFrame, problems: list[str]) -> pd.Dat
                         f"({span_m[i]:.2f} m apart): zero-length span")
     section_ids = _section_ids(line_id, ids, acts_as_strain(line))
     return pd.DataFrame({
-        "span_id": [f"{line_prefix(line_id)}{a}-{b}" for a, b in zip(ids[:-1], ids[1:])],
+        "span_id": span_ids(line_id, ids, problems),
         "line_id": line_id,
         "from_id": ids[:-1], "to_id": ids[1:],
         "section_id": section_ids,
@@ -75,6 +75,24 @@ def _section_ids(line_id: str, ids: np.ndarray, strain: np.ndarray) -> np.ndarra
     names = np.array([f"{line_prefix(line_id)}{ids[a]}-{ids[b]}" for a, b in zip(bounds[:-1], bounds[1:])], dtype=object)
     # A span belongs to the section that started at the last strain structure before it.
     return names[np.cumsum(strain[:-1]) - 1]
+
+
+def span_ids(line_id: str, ids, problems: list[str]) -> list[str]:
+    """``line:from-to`` for each span; names two spans would share get the span's number in the line (``#n``).
+
+    Structure ids may hold the hyphen (A, B-C, A-B, C gives A-B-C twice), so the name alone is not unique.
+    """
+    names = [f"{line_prefix(line_id)}{a}-{b}" for a, b in zip(ids[:-1], ids[1:])]
+    counts = pd.Series(names).value_counts()
+    names = [f"{name}#{i + 1}" if counts[name] > 1 else name for i, name in enumerate(names)]
+    seen: dict[str, int] = {}
+    for i, name in enumerate(names):
+        if name in seen:
+            problems.append(f"{line_label(line_id)}: spans {ids[seen[name]]} -> {ids[seen[name] + 1]} and "
+                            f"{ids[i]} -> {ids[i + 1]} would both be called {name!r}; rename one of the "
+                            "structures (field 'structure_id')")
+        seen.setdefault(name, i)
+    return names
 
 
 def summarise_sections(spans: pd.DataFrame) -> pd.DataFrame:

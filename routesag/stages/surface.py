@@ -26,6 +26,7 @@ from routesag.errors import DataError
 from routesag.io.terrain import TerrainSampler, _first_line, _horizontal_part
 from routesag.pipeline import Stage
 from routesag.profiles import StationField, SurfaceProfile, by_span
+from routesag.stages.terrain import warn_implausible
 
 
 class SampleSurface(Stage):
@@ -41,7 +42,8 @@ class SampleSurface(Stage):
             return {"surface": StationField.fromkeys(p.key for p in profiles)}
         rules = project.clearance
         try:
-            with TerrainSampler(project.surface_path, z_units=project.terrain_z_units) as raster:
+            nodata = project.settings.get("inputs", {}).get("surface_nodata")
+            with TerrainSampler(project.surface_path, z_units=project.terrain_z_units, nodata=nodata) as raster:
                 model = SurfaceModel(raster, data["terrain"], data["work_crs"],
                                      heights=project.surface_values == "height",
                                      min_height_m=rules.surface_min_height_m,
@@ -49,6 +51,8 @@ class SampleSurface(Stage):
                                      largest_required_m=max(rules.required_m.values()))
                 result = model.sample(profiles, checked=rules.checks)
                 ctx.notes["surface_window_reads"] = raster.sample_window_count
+                warn_implausible(ctx, raster, "surface model", "surface_nodata")
+                warn_implausible(ctx, data["terrain"])
         except DataError as exc:  # the raster reader names it "terrain"
             surface = f"surface model {project.surface_path}"
             raise DataError([p.replace(f"terrain {project.surface_path}", surface) for p in exc.problems]) from None

@@ -15,7 +15,15 @@ class SampleTerrain(Stage):
     description = "bilinear terrain elevation under each 3D station; one window read per span"
 
     def run(self, data, ctx):
-        return {"ground": sample_under(data["conductors"], data["terrain"], data["work_crs"])}
+        ground = sample_under(data["conductors"], data["terrain"], data["work_crs"])
+        warn_implausible(ctx, data["terrain"])
+        return {"ground": ground}
+
+
+def warn_implausible(ctx, raster, label="terrain", key="terrain_nodata") -> None:
+    """Warn loudly about every untagged fill value the raster has shown so far (read as nodata)."""
+    for message in getattr(raster, "implausible_warnings", lambda *a: [])(label, key):
+        ctx.warn(message)
 
 
 def sample_under(profiles, terrain, crs) -> StationField:

@@ -13,12 +13,23 @@ def runner():
     return CliRunner()
 
 
+def install_distribution(root, monkeypatch, name, module, code, entry_points):
+    """A distribution on sys.path as pip leaves it: a module and a dist-info folder with its entry points."""
+    root.mkdir()
+    (root / f"{module}.py").write_text(textwrap.dedent(code))
+    dist = root / f"{name.replace('-', '_')}-1.0.dist-info"
+    dist.mkdir()
+    (dist / "METADATA").write_text(f"Metadata-Version: 2.1\nName: {name}\nVersion: 1.0\n")
+    (dist / "entry_points.txt").write_text("[routesag.stages]\n" + entry_points)
+    monkeypatch.syspath_prepend(str(root))
+    importlib.invalidate_caches()
+    return root
+
+
 @pytest.fixture
 def plugin(tmp_path, monkeypatch):
     """Register a third-party stage through a real entry point (a dist-info folder on sys.path)."""
-    root = tmp_path / "plugin"
-    root.mkdir()
-    (root / "demo_plugin_stage.py").write_text(textwrap.dedent("""
+    return install_distribution(tmp_path / "plugin", monkeypatch, "demo-plugin-stage", "demo_plugin_stage", """
         from routesag.pipeline import Stage
 
         class CountViolations(Stage):
@@ -30,16 +41,7 @@ def plugin(tmp_path, monkeypatch):
             def run(self, data, ctx):
                 ctx.notes["violation_count"] = len(data["violations"])
                 return {"violation_count": len(data["violations"])}
-        """))
-    dist = root / "demo_plugin_stage-1.0.dist-info"
-    dist.mkdir()
-    (dist / "METADATA").write_text("Metadata-Version: 2.1\nName: demo-plugin-stage\nVersion: 1.0\n")
-    (dist / "entry_points.txt").write_text(
-        "[routesag.stages]\ncount_violations = demo_plugin_stage:CountViolations\n"
-        "broken_one = demo_plugin_missing:Nothing\n")
-    monkeypatch.syspath_prepend(str(root))
-    importlib.invalidate_caches()
-    return root
+        """, "count_violations = demo_plugin_stage:CountViolations\nbroken_one = demo_plugin_missing:Nothing\n")
 
 
 def test_run_prints_summary_and_exits_0(runner, survey):
@@ -81,11 +83,44 @@ def test_output_over_input_refused(runner, survey):
 def test_stages_lists_builtin_and_plugin(runner, plugin):
     result = runner.invoke(main, ["stages"])
     assert result.exit_code == 0, result.output
-    assert "read_inputs  [built-in]" in result.output
-    assert "build_conductors  [built-in, per section]" in result.output
-    assert "count_violations  [plugin]" in result.output
+    assert "read_inputs  [built-in, from routesag]" in result.output
+    assert "build_conductors  [built-in, per section, from routesag]" in result.output
+    assert "count_violations  [plugin, from demo-plugin-stage]" in result.output
     assert "requires: violations" in result.output
-    assert "broken_one  [plugin]" in result.output and "failed to load" in result.output
+    assert "broken_one  [plugin, from demo-plugin-stage]" in result.output and "failed to load" in result.output
+
+
+@pytest.fixture
+def clashing(tmp_path, monkeypatch):
+    """A distribution that registers a stage under the built-in name 'sample_terrain'."""
+    return install_distribution(tmp_path / "clash", monkeypatch, "other-ground", "other_ground", """
+        from routesag.stages.terrain import SampleTerrain
+
+        class OtherGround(SampleTerrain):
+            description = "another package's terrain sampler (test plugin)"
+
+            def run(self, data, ctx):
+                ctx.notes["other_ground"] = "used"
+                return super().run(data, ctx)
+        """, "sample_terrain = other_ground:OtherGround\n")
+
+
+def test_a_built_in_name_claimed_by_another_package_is_refused(runner, clashing, survey):
+    import routesag
+    from routesag.pipeline import available_stages
+
+    assert available_stages()["sample_terrain"].distribution == "routesag"   # the built-in is never displaced
+    listing = runner.invoke(main, ["stages"]).output
+    assert "sample_terrain  [built-in, per section, from routesag]" in listing and "CLASH: also registered by other-ground" in listing
+    result = runner.invoke(main, ["run", str(survey)])
+    assert result.exit_code == 2, result.output
+    assert ("stage name 'sample_terrain' is registered by several distributions (other-ground, routesag); it is a "
+            "built-in name, reserved for routesag") in result.output
+    assert not (survey.parent / "out.gpkg").exists()
+    survey.write_text(survey.read_text() + '\n[pipeline]\nstages = ["other-ground:sample_terrain"]\n')
+    assert routesag.run(survey).notes["other_ground"] == "used"
+    survey.write_text(survey.read_text().replace("other-ground:sample_terrain", "routesag:sample_terrain"))
+    assert "other_ground" not in routesag.run(survey).notes
 
 
 def test_project_can_add_plugin_stage(runner, plugin, survey):
