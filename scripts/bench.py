@@ -48,7 +48,7 @@ def timed(function, *args, **kwargs):
 def run_routesag(project: Path, workers: int, out: Path) -> float:
     import routesag
 
-    seconds, _ = timed(routesag.run, project, out=out, workers=workers)
+    seconds, _ = timed(routesag.run, project, out=out, workers=workers, read_back=False)
     return seconds
 
 
@@ -119,7 +119,7 @@ def naive_seconds(project: Path, result_gpkg: Path) -> tuple[float, int]:
 
 def peak_rss_mb(project: Path, out: Path) -> float:
     """Peak resident memory [MB] of a fresh process that runs the project with one worker."""
-    code = ("import resource, sys, routesag; routesag.run(sys.argv[1], out=sys.argv[2], workers=1); "
+    code = ("import resource, sys, routesag; routesag.run(sys.argv[1], out=sys.argv[2], workers=1, read_back=False); "
             "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)")
     done = subprocess.run([sys.executable, "-c", code, str(project), str(out)], capture_output=True, text=True,
                           check=True, env={**os.environ, "PYTHONWARNINGS": "ignore"})

@@ -62,15 +62,74 @@ def write_layers(path, layers, *, protect=()):
     prepared = [_prepare_layer(name, spec) for name, spec in layers.items()]
     if not prepared:
         raise OutputError(f"no layers to write to {destination}")
-    temporary = _temporary_path(destination)
-    try:
+    with GeoPackageWriter(destination, protect=protect) as writer:
         for name, frame, geometry_type in prepared:
-            _write_one(temporary, name, frame, geometry_type)
-        _fsync(temporary)
-        os.replace(temporary, destination)
-    except BaseException:
-        _remove_with_sidecars(temporary)
-        raise
+            writer.write(name, frame, geometry_type)
+        writer.commit()
+
+
+class GeoPackageWriter:
+    """A GeoPackage written piece by piece into a hidden temporary file, then moved over the target at once.
+
+    ``write`` creates a layer or appends rows to one (each call is one
+    transaction); ``commit`` flushes the file to disk and renames it over
+    ``path`` atomically; ``discard`` (also on leaving a ``with`` block
+    without a commit, whatever the exception) removes the temporary file and
+    its SQLite side files, so the earlier file at ``path`` stays as it was.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Destination ``.gpkg``.
+    protect : iterable of path-like
+        Files that must never be overwritten (the run's inputs).
+
+    Raises
+    ------
+    OutputError
+        As :func:`write_layers`, before the temporary file exists.
+    """
+
+    def __init__(self, path, *, protect=()):
+        self.destination = Path(path)
+        _check_destination(self.destination, protect)
+        self.temporary = _temporary_path(self.destination)
+        self.layers: list[str] = []
+        self.done = False
+
+    def write(self, name, frame, geometry_type=None):
+        """Create layer ``name`` with ``frame``'s rows, or append them when it exists (same columns)."""
+        if self.done:
+            raise OutputError(f"{self.destination}: the GeoPackage is already committed or discarded")
+        name, frame, geometry_type = _prepare_layer(name, (frame, geometry_type))
+        append = name in self.layers
+        if append and len(frame) == 0:
+            return
+        _write_one(self.temporary, name, frame, geometry_type, append=append)
+        if not append:
+            self.layers.append(name)
+
+    def commit(self):
+        """Make the written layers the file at ``path`` (atomic rename)."""
+        try:
+            _fsync(self.temporary)
+            os.replace(self.temporary, self.destination)
+        except BaseException:
+            self.discard()
+            raise
+        self.done = True
+
+    def discard(self):
+        """Remove the temporary file; the destination is not touched. Safe to call twice."""
+        if not self.done:
+            _remove_with_sidecars(self.temporary)
+            self.done = True
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc_info):
+        self.discard()
 
 
 def read_layer(path, layer):
@@ -144,11 +203,11 @@ def _prepare_layer(name, spec):
     raise TypeError(f"layer {name!r}: expected a DataFrame, got {type(frame).__name__}")
 
 
-def _write_one(temporary, name, frame, geometry_type):
+def _write_one(temporary, name, frame, geometry_type, append=False):
     # pyogrio takes the CRS from the GeoDataFrame itself (write_dataframe has
     # no crs argument), and writes a plain DataFrame as an attribute table.
     pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG",
-                            geometry_type=geometry_type)
+                            geometry_type=geometry_type, append=append)
 
 
 def _temporary_path(destination):
