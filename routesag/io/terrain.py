@@ -93,9 +93,17 @@ class TerrainSampler:
     sparse_cells_per_point = 256
     sparse_tile = 64
     cache_mb = 64
+    #: Cells added on each side of a window read for interpolation when windows are held (see ``hold_windows``).
+    hold_margin_cells = 48
+    #: Largest window that is held [cells]; larger reads are not kept.
+    hold_max_cells = 512 * 1024
 
-    def __init__(self, path, z_units="m", crs=None):
+    def __init__(self, path, z_units="m", crs=None, hold_windows=0):
         self._path = Path(path)
+        # The last few windows read for interpolation, grown by a margin, newest first: the wires and load
+        # cases of one span, and the terrain stage after them, then decode the span's cells once.
+        self.hold_windows = int(hold_windows)
+        self._held: list[tuple[Window, np.ndarray]] = []
         self.crs_note = ""
         self._z_units = z_units
         if z_units not in Z_UNIT_FACTORS:
@@ -135,7 +143,7 @@ class TerrainSampler:
     # -- lifecycle -----------------------------------------------------------------
     def reference(self) -> "RasterRef":
         """What another process needs to open this raster itself (an open handle cannot be pickled)."""
-        return RasterRef(str(self._path), self._z_units)
+        return RasterRef(str(self._path), self._z_units, self.hold_windows)
 
     def __reduce__(self):
         raise TypeError("a TerrainSampler holds an open raster and cannot be pickled; send .reference()")
@@ -365,7 +373,7 @@ class TerrainSampler:
         row_off, col_off = int(r0.min()), int(c0.min())
         n_rows = min(int(r0.max()) + 2, self._ds.height) - row_off
         n_cols = min(int(c0.max()) + 2, self._ds.width) - col_off
-        z = self._read(Window(col_off, row_off, n_cols, n_rows))
+        z = self._window_values(Window(col_off, row_off, n_cols, n_rows))
         r, c = r0 - row_off, c0 - col_off
         r1, c1 = np.minimum(r + 1, n_rows - 1), np.minimum(c + 1, n_cols - 1)
         fu, fv = u - c0, v - r0
@@ -374,6 +382,27 @@ class TerrainSampler:
                 + (z[r1, c] * (1.0 - fu) + z[r1, c1] * fu) * fv)
 
     # -- raw reads --------------------------------------------------------------------
+    def _window_values(self, window):
+        """The cells of ``window`` as :meth:`_read` gives them, from a held window when one covers it."""
+        if self.hold_windows <= 0:
+            return self._read(window)
+        for i, (held, values) in enumerate(self._held):
+            top, left = window.row_off - held.row_off, window.col_off - held.col_off
+            if (top >= 0 and left >= 0 and top + window.height <= held.height
+                    and left + window.width <= held.width):
+                self._held.insert(0, self._held.pop(i))
+                return values[top:top + window.height, left:left + window.width]
+        m = self.hold_margin_cells
+        row0, col0 = max(window.row_off - m, 0), max(window.col_off - m, 0)
+        grown = Window(col0, row0, min(window.col_off + window.width + m, self._ds.width) - col0,
+                       min(window.row_off + window.height + m, self._ds.height) - row0)
+        if grown.width * grown.height > self.hold_max_cells:
+            return self._read(window)
+        values = self._read(grown)
+        self._held = [(grown, values)] + self._held[:self.hold_windows - 1]
+        top, left = window.row_off - row0, window.col_off - col0
+        return values[top:top + window.height, left:left + window.width]
+
     def _read(self, window):
         """Window read as float64 metres, NaN where masked."""
         try:
@@ -533,11 +562,13 @@ class RasterRef:
 
     path: str
     z_units: str = "m"
+    hold_windows: int = 0
 
     def open(self) -> TerrainSampler:
         sampler = _OPEN_IN_PROCESS.get(self)
         if sampler is None:
-            sampler = _OPEN_IN_PROCESS[self] = TerrainSampler(self.path, z_units=self.z_units)
+            sampler = _OPEN_IN_PROCESS[self] = TerrainSampler(self.path, z_units=self.z_units,
+                                                              hold_windows=self.hold_windows)
         return sampler
 
 

@@ -10,6 +10,11 @@ from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
 
 
+#: Terrain windows held by the sampler: more than a section's spans, so the terrain stage finds every span's
+#: cells still in memory after the conductors were placed on them (one read per span; at most ~2 MB each).
+HELD_TERRAIN_WINDOWS = 16
+
+
 class ReadInputs(Stage):
     name = "read_inputs"
     requires = ("project",)
@@ -62,7 +67,7 @@ def read_and_check(project, ctx=None):
         problems.extend(exc.problems)
     try:
         terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units,
-                                 crs=inputs.get("terrain_crs"))
+                                 crs=inputs.get("terrain_crs"), hold_windows=HELD_TERRAIN_WINDOWS)
     except DataError as exc:
         problems.extend(exc.problems)
     if problems:
