@@ -82,6 +82,8 @@ class RunContext:
     output_layers: dict[str, str | None] = field(default_factory=dict)
     #: Functions the main process passes each finished section's results through, in order (output streams).
     section_sinks: list[Callable[[dict], dict]] = field(default_factory=list)
+    #: Input role -> digest being computed (``hexdigest()``), started when the inputs are first read.
+    input_hashes: dict[str, Any] = field(default_factory=dict)
 
     def warn(self, message: str) -> None:
         if message in self.warnings:  # sections repeat line-wide warnings

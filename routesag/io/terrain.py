@@ -134,6 +134,7 @@ class TerrainSampler:
             self.close()
             raise
         self._transformers = {}
+        self._seen_crs = {}
         flags = set(self._ds.mask_flag_enums[0])
         self._mask_from_nodata = flags <= {MaskFlags.nodata, MaskFlags.all_valid}
         self._inverse = ~self._ds.transform
@@ -308,8 +309,16 @@ class TerrainSampler:
                                    np.asarray(y, dtype=np.float64))
         if crs is None:
             return x, y
-        source = pyproj.CRS.from_user_input(crs)
-        if source == self._crs or source == self._horizontal_crs:
+        # Comparing CRSs costs more than sampling a span: remember the answer for the objects already seen.
+        seen = self._seen_crs.get(id(crs))
+        if seen is not None and seen[0] is crs:
+            source = seen[1]
+        else:
+            source = pyproj.CRS.from_user_input(crs)
+            if source == self._crs or source == self._horizontal_crs:
+                source = None
+            self._seen_crs[id(crs)] = (crs, source)
+        if source is None:
             return x, y
         transformer = self._transformers.get(source)
         if transformer is None:

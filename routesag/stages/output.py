@@ -13,7 +13,7 @@ import shapely
 
 from routesag import __version__
 from routesag.io.gpkg import GeoPackageWriter, write_layers
-from routesag.io.hashing import sha256_file
+from routesag.io.hashing import BackgroundHash, sha256_file
 from routesag.pipeline import Stage
 from routesag.profiles import Profiles
 
@@ -40,6 +40,8 @@ class OpenOutput(Stage):
         project = data["project"]
         stream = LayerStream(project.output_path, data, protect=tuple(project.input_paths().values()))
         ctx.section_sinks.append(stream.take_section)
+        # The inputs' hashes are computed while the sections run, not read again at the end.
+        ctx.input_hashes = {role: BackgroundHash(path) for role, path in project.input_paths().items()}
         return {"output_stream": stream}
 
 
@@ -278,9 +280,14 @@ def run_info_table(project, ctx) -> pd.DataFrame:
             ("project_file", str(project.path)),
             ("output_file", str(project.output_path)),
             ("caution", CAUTION)]
+    hashes = ctx.input_hashes
     for role, path in project.input_paths().items():
         rows.append((f"input.{role}", str(path)))
-        rows.append((f"input.{role}.sha256", sha256_file(path)))
+        digest = hashes.get(role)
+        if digest is not None and digest.changed():
+            ctx.warn(f"input {path} changed while the run read it: its sha256 in run_info may not be that of "
+                     "the data used; run again on a file that stays put")
+        rows.append((f"input.{role}.sha256", digest.hexdigest() if digest is not None else sha256_file(path)))
     for key, value in sorted(ctx.notes.items()):
         rows.append((f"note.{key}", value if isinstance(value, str) else json.dumps(value)))
     for table, values in project.settings.items():

@@ -106,3 +106,20 @@ def test_finish_profiles_keep_their_summary_without_stations(deep):
     assert isinstance(light, Profiles) and light.keys() == data["conductors"].keys()
     assert all(len(p.xyz) == 0 and len(p.stations_m) == 0 for p in light)
     assert [p.sag_m for p in light] == [p.sag_m for p in data["conductors"]]
+
+
+def test_input_hashes_are_those_of_the_files(deep):
+    from routesag.io.hashing import sha256_file
+
+    info = routesag.run(deep)["run_info"].set_index("key")["value"]
+    for role in ("structures", "terrain"):
+        path = info[f"input.{role}"]
+        assert info[f"input.{role}.sha256"] == sha256_file(path)
+
+
+def test_an_input_changed_during_the_run_is_warned_of(deep, monkeypatch):
+    from routesag.io.hashing import BackgroundHash
+
+    monkeypatch.setattr(BackgroundHash, "changed", lambda self: str(self.path).endswith("terrain.tif"))
+    result = routesag.run(deep)
+    assert any("terrain.tif changed while the run read it" in w for w in result.warnings)
