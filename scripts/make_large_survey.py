@@ -71,28 +71,7 @@ offset_m = 0.0
 name = "phase_c"
 offset_m = 4.5
 
-[insulators]
-weight_n = 600.0
-wind_area_m2 = 0.35
-
-[[load_cases]]
-name = "hot"
-temperature_c = 90.0
-
-[[load_cases]]
-name = "cold"
-temperature_c = -20.0
-
-[[load_cases]]
-name = "ice"
-temperature_c = 0.0
-ice_mm = 12.5
-
-[[load_cases]]
-name = "wind"
-temperature_c = 15.0
-wind_pa = 430.0
-
+{load_cases}
 [clearance]
 ground_m = 7.5
 station_m = 1.0
@@ -100,6 +79,13 @@ station_m = 1.0
 [output]
 path = "results.gpkg"
 """
+
+
+def demo_load_cases() -> str:
+    """The sample project's insulator strings and four load cases (hot, cold, ice, wind), as TOML text."""
+    from routesag.sample import PROJECT_TOML
+
+    return PROJECT_TOML[PROJECT_TOML.index("[insulators]"):PROJECT_TOML.index("[[limits]]")].rstrip() + "\n"
 
 
 def line_axis_y(x_m):
@@ -185,7 +171,7 @@ def build(out: Path, km: float, res_m: float, width_factor: float = 1.0) -> Path
     xy = structure_positions(km)
     write_structures(out / "structures.gpkg", xy)
     shape = write_terrain(out / "terrain.tif", xy, res_m, width_factor)
-    project.write_text(textwrap.dedent(PROJECT).lstrip())
+    project.write_text(textwrap.dedent(PROJECT).lstrip().format(load_cases=demo_load_cases()))
     span_m = np.hypot(*np.diff(xy, axis=0).T)
     stamp.write_text(json.dumps({"params": params, "structures": len(xy), "spans": len(span_m),
                                  "line_km": round(float(span_m.sum()) / 1000.0, 3), "raster": shape}, indent=1))
