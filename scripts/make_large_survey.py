@@ -54,23 +54,7 @@ attach_height_m = 24.0
 [conductor]
 name = "Drake"
 
-[stringing]
-temperature_c = 15.0
-horizontal_tension_kn = 28.0
-creep_allowance_c = 10.0
-
-[[wires]]
-name = "phase_a"
-offset_m = -4.5
-
-[[wires]]
-name = "phase_b"
-offset_m = 0.0
-
-[[wires]]
-name = "phase_c"
-offset_m = 4.5
-
+{phases}
 {load_cases}
 [clearance]
 ground_m = 7.5
@@ -81,11 +65,12 @@ path = "results.gpkg"
 """
 
 
-def demo_load_cases() -> str:
-    """The sample project's insulator strings and four load cases (hot, cold, ice, wind), as TOML text."""
+def demo_block(first: str, stop: str) -> str:
+    """A part of the sample project's TOML, from ``first`` up to ``stop``: its stringing and three phases, its
+    insulator strings and four load cases (hot, cold, ice, wind)."""
     from routesag.sample import PROJECT_TOML
 
-    return PROJECT_TOML[PROJECT_TOML.index("[insulators]"):PROJECT_TOML.index("[[limits]]")].rstrip() + "\n"
+    return PROJECT_TOML[PROJECT_TOML.index(first):PROJECT_TOML.index(stop)].rstrip() + "\n"
 
 
 def line_axis_y(x_m):
@@ -171,7 +156,8 @@ def build(out: Path, km: float, res_m: float, width_factor: float = 1.0) -> Path
     xy = structure_positions(km)
     write_structures(out / "structures.gpkg", xy)
     shape = write_terrain(out / "terrain.tif", xy, res_m, width_factor)
-    project.write_text(textwrap.dedent(PROJECT).lstrip().format(load_cases=demo_load_cases()))
+    project.write_text(textwrap.dedent(PROJECT).lstrip().format(
+        phases=demo_block("[stringing]", '[[wires]]\nname = "earth"'), load_cases=demo_block("[insulators]", "[[limits]]")))
     span_m = np.hypot(*np.diff(xy, axis=0).T)
     stamp.write_text(json.dumps({"params": params, "structures": len(xy), "spans": len(span_m),
                                  "line_km": round(float(span_m.sum()) / 1000.0, 3), "raster": shape}, indent=1))
