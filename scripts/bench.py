@@ -118,12 +118,16 @@ def naive_seconds(project: Path, result_gpkg: Path) -> tuple[float, int]:
 
 
 def peak_rss_mb(project: Path, out: Path) -> float:
-    """Peak resident memory [MB] of a fresh process that runs the project with one worker."""
-    code = ("import resource, sys, routesag; routesag.run(sys.argv[1], out=sys.argv[2], workers=1, read_back=False); "
-            "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)")
+    """Peak resident memory [MB] of a fresh process that runs the project with one worker.
+
+    Read from the child's own ``VmHWM``: ``ru_maxrss`` survives ``exec`` on Linux, so a child started from this
+    (large) process would report this process's peak instead of its own.
+    """
+    code = ("import sys, routesag; routesag.run(sys.argv[1], out=sys.argv[2], workers=1, read_back=False); "
+            "print(next(l.split()[1] for l in open('/proc/self/status') if l.startswith('VmHWM:')))")
     done = subprocess.run([sys.executable, "-c", code, str(project), str(out)], capture_output=True, text=True,
                           check=True, env={**os.environ, "PYTHONWARNINGS": "ignore"})
-    return int(done.stdout.strip().splitlines()[-1]) / 1024.0  # ru_maxrss is in KiB on Linux
+    return int(done.stdout.strip().splitlines()[-1]) / 1024.0  # kB
 
 
 def spread(values: list[float]) -> str:
