@@ -206,8 +206,16 @@ def _prepare_layer(name, spec):
 def _write_one(temporary, name, frame, geometry_type, append=False):
     # pyogrio takes the CRS from the GeoDataFrame itself (write_dataframe has
     # no crs argument), and writes a plain DataFrame as an attribute table.
-    pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG",
-                            geometry_type=geometry_type, append=append)
+    # SQLite need not sync each commit of the temporary file: the file is
+    # fsync'd before the rename, and a crash before it leaves only the
+    # temporary file, never a damaged destination.
+    saved = pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS")
+    pyogrio.set_gdal_config_options({"OGR_SQLITE_SYNCHRONOUS": "OFF"})
+    try:
+        pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG",
+                                geometry_type=geometry_type, append=append)
+    finally:
+        pyogrio.set_gdal_config_options({"OGR_SQLITE_SYNCHRONOUS": saved})
 
 
 def _temporary_path(destination):
