@@ -163,10 +163,11 @@ def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):
     stations = [np.asarray(s, dtype=float) for s in stations_m]
     found = [grid_line_crossings(s, u, v) for s, (u, v) in zip(stations, grid_uv(stations), strict=True)]
     crossings = [crossing for crossing, *_ in found]
-    with_crossings = [i for i, crossing in enumerate(crossings) if len(crossing)]
-    for i, at in zip(with_crossings, grid_uv([crossings[i] for i in with_crossings]), strict=True):
-        # one secant step from the chord onto the real plan path (curved under wind)
+    for i, at in enumerate(grid_uv(crossings) if any(len(c) for c in crossings) else ()):
         crossing, axis, level, slope = found[i]
+        if not len(crossing):
+            continue
+        # one secant step from the chord onto the real plan path (curved under wind)
         residual = np.where(axis == 0, at[0], at[1]) - level
         crossings[i] = np.clip(crossing - np.nan_to_num(residual) / slope, stations[i][0], stations[i][-1])
     pieces = [np.unique(np.concatenate([s, crossing])) for s, crossing in zip(stations, crossings)]
