@@ -29,7 +29,8 @@ class RunResult:
         return self.layers[name]
 
 
-def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_section=None) -> RunResult:
+def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_section=None,
+        read_back=True) -> RunResult:
     """Run the pipeline of a project file and write its GeoPackage.
 
     Parameters
@@ -48,6 +49,11 @@ def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_sec
         A dask scheduler address (``tcp://host:port``) or ``local:N``; wins over ``workers``.
     on_section : callable, optional
         Called with (section_id, done, total) as each section finishes, and with ("", 0, total) before.
+    read_back : bool, default True
+        The conductors go to the GeoPackage section by section and leave memory; True reads them back once the
+        file is in place, so ``result["conductors"]`` is at hand as for the other layers. False reads them
+        from the file only when first asked for (the file must then still exist), which keeps a long line's
+        stations out of memory.
 
     Returns
     -------
@@ -57,7 +63,7 @@ def run(project_path, out=None, progress=None, workers=1, scheduler=None, on_sec
     project = load_project(project_path, output=out)
     removed = check_destination(project)
     return run_project(project, engine_factory(project, workers, scheduler), progress, on_section,
-                       removed)
+                       removed, read_back)
 
 
 def run_batch(project_paths, workers=1, scheduler=None, progress=None, on_section=None, on_result=None) -> list:
@@ -114,16 +120,21 @@ def load_batch(project_paths) -> list[Project]:
     return projects
 
 
-def run_project(project: Project, engine, progress=None, on_section=None, removed=()) -> RunResult:
+def run_project(project: Project, engine, progress=None, on_section=None, removed=(),
+                read_back=True) -> RunResult:
     """Run a loaded project's chain on ``engine`` (an engine, or a function of the section count making one).
 
     ``removed``: stale temporary files of killed runs that :func:`check_destination` removed (noted in run_info).
+    ``read_back`` as in :func:`run`.
     """
     ctx = RunContext()
     if removed:
         ctx.notes["removed_stale_temporaries"] = [str(p) for p in removed]
     data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress, engine, on_section)
-    layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
+    layers = WrittenLayers({name: frame for name, (frame, _) in data.get("layers", {}).items()},
+                           data.get("geopackage"))
+    if read_back:
+        layers.read_all()
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
                      warnings=ctx.warnings, notes=ctx.notes)
 
@@ -175,10 +186,43 @@ def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=
     try:
         run_chain(chain, data, ctx, progress=progress, engine=engine, on_section=on_section)
     finally:
-        terrain = data.get("terrain")
-        if terrain is not None and hasattr(terrain, "close"):
-            terrain.close()
+        # the terrain reader, and an output stream that was not committed (its temporary file goes)
+        for name in ("terrain", "output_stream"):
+            if hasattr(data.get(name), "close"):
+                data[name].close()
     return data
+
+
+class WrittenLayers(dict):
+    """The run's layers by name; a layer written while the sections ran (held as None) is read back from the
+    GeoPackage the first time it is asked for, so a long line's conductors never sit in memory whole."""
+
+    def __init__(self, layers: dict, path):
+        super().__init__(layers)
+        self._path = path
+
+    def __getitem__(self, name):
+        frame = super().__getitem__(name)
+        if frame is None and self._path is not None:
+            from routesag.io.gpkg import read_layer
+
+            frame = read_layer(self._path, name)
+            self[name] = frame
+        return frame
+
+    def read_all(self) -> None:
+        """Read every layer still held only in the file."""
+        for name in self:
+            self[name]
+
+    def get(self, name, default=None):
+        return self[name] if name in self else default
+
+    def items(self):
+        return [(name, self[name]) for name in self]
+
+    def values(self):
+        return [self[name] for name in self]
 
 
 def check_destination(project: Project) -> list[Path]:

@@ -34,7 +34,7 @@ ENTRY_POINT_GROUP = "routesag.stages"
 DEFAULT_CHAIN = ("read_inputs", "build_spans", "check_spans", "solve_tensions", "compute_structure_loads",
                  "build_conductors", "check_sags", "sample_terrain", "read_crossings", "classify_stations",
                  "sample_surface", "check_clearance", "find_unknowns", "find_hotspots", "check_tension_limits",
-                 "build_sag_table", "assemble_layers", "write_geopackage")
+                 "build_sag_table", "open_output", "assemble_layers", "write_geopackage")
 # The LiDAR point cloud: wire fits, the as-found state, vegetation and buildings from the points.
 DEFAULT_CHAIN += ("read_point_cloud", "fit_wires", "compare_as_found", "measure_point_clearance")
 
@@ -87,6 +87,8 @@ class RunContext:
     output_layers: dict[str, str | None] = field(default_factory=dict)
     #: Input role -> (path, SHA-256, file signature), taken when the inputs were read (io.hashing.fingerprint).
     inputs: dict[str, tuple] = field(default_factory=dict)
+    #: Functions the main process passes each finished section's results through, in order (output streams).
+    section_sinks: list[Callable[[dict], dict]] = field(default_factory=list)
 
     def warn(self, message: str) -> None:
         if message in self.warnings:  # sections repeat line-wide warnings
@@ -453,6 +455,8 @@ def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=
         on_section("", 0, len(tasks))
     try:
         for done, (result, section_ctx) in enumerate(engine.map(tasks), start=1):
+            for sink in ctx.section_sinks:
+                result = sink(result)
             parts.append(result)
             ctx.absorb(section_ctx)
             section_id = tasks[done - 1].section_id

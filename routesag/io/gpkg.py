@@ -5,6 +5,7 @@ moved over it with :func:`os.replace`, which is atomic on one file system. A
 failed or interrupted run therefore leaves the previous output as it was.
 """
 
+import contextlib
 import os
 from pathlib import Path
 
@@ -65,20 +66,95 @@ def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION):
     prepared = [_prepare_layer(name, spec) for name, spec in layers.items()]
     if not prepared:
         raise OutputError(f"no layers to write to {destination}")
-    temporary = temporary_path(destination)
-    try:
+    with GeoPackageWriter(destination, protect=protect, version=version) as writer:
         for name, frame, geometry_type in prepared:
-            _write_one(temporary, name, frame, geometry_type)
-        stamp_version(temporary, version)
-        _fsync(temporary)
-        keep_mode(temporary, destination)
-        os.replace(temporary, destination)
-    except BaseException as exc:
-        _remove_with_sidecars(temporary)
-        told = write_error(exc, destination)
-        if told is not None:
-            raise told from None
-        raise
+            writer.write(name, frame, geometry_type)
+        writer.commit()
+
+
+class GeoPackageWriter:
+    """A GeoPackage written piece by piece into a hidden temporary file, then moved over the target at once.
+
+    ``write`` creates a layer or appends rows to one (each call is one
+    transaction); ``commit`` stamps the GeoPackage version, flushes the file
+    to disk, gives it the permissions of the file it replaces and renames it
+    over ``path`` atomically; ``discard`` (also on leaving a ``with`` block
+    without a commit, whatever the exception) removes the temporary file and
+    its SQLite side files, so the earlier file at ``path`` stays as it was.
+    OS and SQLite write errors are raised as :class:`OutputError` saying what to do.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Destination ``.gpkg``.
+    protect : iterable of path-like
+        Files that must never be overwritten (the run's inputs).
+    version : str
+        GeoPackage version the file declares (see :mod:`routesag.io.gpkg_version`).
+
+    Raises
+    ------
+    OutputError
+        As :func:`write_layers`, before the temporary file exists.
+    """
+
+    def __init__(self, path, *, protect=(), version=DEFAULT_VERSION):
+        self.destination = Path(path)
+        _check_destination(self.destination, protect)
+        self.temporary = temporary_path(self.destination)
+        self.version = version
+        self.layers: list[str] = []
+        self.done = False
+
+    def write(self, name, frame, geometry_type=None):
+        """Create layer ``name`` with ``frame``'s rows, or append them when it exists (same columns)."""
+        if self.done:
+            raise OutputError(f"{self.destination}: the GeoPackage is already committed or discarded")
+        name, frame, geometry_type = _prepare_layer(name, (frame, geometry_type))
+        append = name in self.layers
+        if append and len(frame) == 0:
+            return
+        with self._errors_in_words():
+            _write_one(self.temporary, name, frame, geometry_type, append=append)
+        if not append:
+            self.layers.append(name)
+
+    def commit(self, finalize=None):
+        """Make the written layers the file at ``path`` (atomic rename).
+
+        ``finalize(temporary_path)``, when given, runs on the finished temporary file just before the rename.
+        """
+        with self._errors_in_words():
+            stamp_version(self.temporary, self.version)
+            if finalize is not None:
+                finalize(self.temporary)
+            _fsync(self.temporary)
+            keep_mode(self.temporary, self.destination)
+            os.replace(self.temporary, self.destination)
+        self.done = True
+
+    def discard(self):
+        """Remove the temporary file; the destination is not touched. Safe to call twice."""
+        if not self.done:
+            _remove_with_sidecars(self.temporary)
+            self.done = True
+
+    @contextlib.contextmanager
+    def _errors_in_words(self):
+        try:
+            yield
+        except BaseException as exc:
+            self.discard()
+            told = write_error(exc, self.destination)
+            if told is not None:
+                raise told from None
+            raise
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc_info):
+        self.discard()
 
 
 def read_layer(path, layer):
@@ -153,11 +229,19 @@ def _prepare_layer(name, spec):
     raise TypeError(f"layer {name!r}: expected a DataFrame, got {type(frame).__name__}")
 
 
-def _write_one(temporary, name, frame, geometry_type):
+def _write_one(temporary, name, frame, geometry_type, append=False):
     # pyogrio takes the CRS from the GeoDataFrame itself (write_dataframe has
     # no crs argument), and writes a plain DataFrame as an attribute table.
-    pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG",
-                            geometry_type=geometry_type)
+    # SQLite need not sync each commit of the temporary file: the file is
+    # fsync'd before the rename, and a crash before it leaves only the
+    # temporary file, never a damaged destination.
+    saved = pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS")
+    pyogrio.set_gdal_config_options({"OGR_SQLITE_SYNCHRONOUS": "OFF"})
+    try:
+        pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG",
+                                geometry_type=geometry_type, append=append)
+    finally:
+        pyogrio.set_gdal_config_options({"OGR_SQLITE_SYNCHRONOUS": saved})
 
 
 def _fsync(path):

@@ -109,9 +109,17 @@ class TerrainSampler:
     sparse_cells_per_point = 256
     sparse_tile = 64
     cache_mb = 64
+    #: Cells added on each side of a window read for interpolation when windows are held (see ``hold_windows``).
+    hold_margin_cells = 48
+    #: Largest window that is held [cells]; larger reads are not kept.
+    hold_max_cells = 512 * 1024
 
-    def __init__(self, path, z_units="m", crs=None, nodata=None):
+    def __init__(self, path, z_units="m", crs=None, nodata=None, hold_windows=0):
         self._path = Path(path)
+        # The last few windows read for interpolation, grown by a margin, newest first: the wires and load
+        # cases of one span, and the terrain stage after them, then decode the span's cells once.
+        self.hold_windows = int(hold_windows)
+        self._held: list[tuple[Window, np.ndarray]] = []
         self.crs_note = ""
         self._z_units = z_units
         self._assigned_crs = crs
@@ -146,6 +154,7 @@ class TerrainSampler:
             self.close()
             raise
         self._transformers = {}
+        self._seen_crs = {}
         flags = set(self._ds.mask_flag_enums[0])
         self._mask_from_nodata = flags <= {MaskFlags.nodata, MaskFlags.all_valid}
         try:
@@ -161,7 +170,8 @@ class TerrainSampler:
     # -- lifecycle -----------------------------------------------------------------
     def reference(self) -> "RasterRef":
         """What another process needs to open this raster itself (an open handle cannot be pickled)."""
-        return RasterRef(str(self._path), self._z_units, self._assigned_crs, self._declared_nodata)
+        return RasterRef(str(self._path), self._z_units, self._assigned_crs, self._declared_nodata,
+                         self.hold_windows)
 
     def __reduce__(self):
         raise TypeError("a TerrainSampler holds an open raster and cannot be pickled; send .reference()")
@@ -326,8 +336,16 @@ class TerrainSampler:
                                    np.asarray(y, dtype=np.float64))
         if crs is None:
             return x, y
-        source = pyproj.CRS.from_user_input(crs)
-        if source == self._crs or source == self._horizontal_crs:
+        # Comparing CRSs costs more than sampling a span: remember the answer for the objects already seen.
+        seen = self._seen_crs.get(id(crs))
+        if seen is not None and seen[0] is crs:
+            source = seen[1]
+        else:
+            source = pyproj.CRS.from_user_input(crs)
+            if source == self._crs or source == self._horizontal_crs:
+                source = None
+            self._seen_crs[id(crs)] = (crs, source)
+        if source is None:
             return x, y
         transformer = self._transformers.get(source)
         if transformer is None:
@@ -391,7 +409,7 @@ class TerrainSampler:
         row_off, col_off = int(r0.min()), int(c0.min())
         n_rows = min(int(r0.max()) + 2, self._ds.height) - row_off
         n_cols = min(int(c0.max()) + 2, self._ds.width) - col_off
-        z = self._read(Window(col_off, row_off, n_cols, n_rows))
+        z = self._window_values(Window(col_off, row_off, n_cols, n_rows))
         r, c = r0 - row_off, c0 - col_off
         r1, c1 = np.minimum(r + 1, n_rows - 1), np.minimum(c + 1, n_cols - 1)
         fu, fv = u - c0, v - r0
@@ -400,6 +418,27 @@ class TerrainSampler:
                 + (z[r1, c] * (1.0 - fu) + z[r1, c1] * fu) * fv)
 
     # -- raw reads --------------------------------------------------------------------
+    def _window_values(self, window):
+        """The cells of ``window`` as :meth:`_read` gives them, from a held window when one covers it."""
+        if self.hold_windows <= 0:
+            return self._read(window)
+        for i, (held, values) in enumerate(self._held):
+            top, left = window.row_off - held.row_off, window.col_off - held.col_off
+            if (top >= 0 and left >= 0 and top + window.height <= held.height
+                    and left + window.width <= held.width):
+                self._held.insert(0, self._held.pop(i))
+                return values[top:top + window.height, left:left + window.width]
+        m = self.hold_margin_cells
+        row0, col0 = max(window.row_off - m, 0), max(window.col_off - m, 0)
+        grown = Window(col0, row0, min(window.col_off + window.width + m, self._ds.width) - col0,
+                       min(window.row_off + window.height + m, self._ds.height) - row0)
+        if grown.width * grown.height > self.hold_max_cells:
+            return self._read(window)
+        values = self._read(grown)
+        self._held = [(grown, values)] + self._held[:self.hold_windows - 1]
+        top, left = window.row_off - row0, window.col_off - col0
+        return values[top:top + window.height, left:left + window.width]
+
     def _read(self, window):
         """Window read as float64 metres, NaN where masked."""
         try:
@@ -624,12 +663,13 @@ class RasterRef:
     z_units: str = "m"
     crs: str | None = None
     nodata: float | None = None
+    hold_windows: int = 0
 
     def open(self) -> TerrainSampler:
         sampler = _OPEN_IN_PROCESS.get(self)
         if sampler is None:
             sampler = _OPEN_IN_PROCESS[self] = TerrainSampler(self.path, z_units=self.z_units, crs=self.crs,
-                                                              nodata=self.nodata)
+                                                              nodata=self.nodata, hold_windows=self.hold_windows)
         return sampler
 
 

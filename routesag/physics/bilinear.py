@@ -49,7 +49,7 @@ References
 import numpy as np
 
 __all__ = ["BOUND_M", "grid_line_crossings", "quadratic_vertex_stations", "exact_minimum_stations",
-           "zero_crossing_bounds"]
+           "exact_minimum_stations_many", "zero_crossing_bounds"]
 
 #: Stated bound [m]: the reported minimum clearance exceeds the true minimum along the path by at most this.
 BOUND_M = 1e-3
@@ -139,22 +139,45 @@ def exact_minimum_stations(stations_m, grid_uv, clearance_m):
         Sorted unique stations within the span [m]: the given ones, the grid
         line crossings and the vertices of the pieces between them.
     """
-    s = np.asarray(stations_m, dtype=float)
-    first, last = s[0], s[-1]
-    u, v = grid_uv(s)
-    crossing, axis, level, slope = grid_line_crossings(s, u, v)
-    if len(crossing):
+    return exact_minimum_stations_many([stations_m], lambda many: [grid_uv(s) for s in many],
+                                       lambda many: [clearance_m(s) for s in many])[0]
+
+
+def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):
+    """:func:`exact_minimum_stations` for several wires at once, asking for the terrain once per step for all.
+
+    Parameters
+    ----------
+    stations_m : list of numpy.ndarray
+        Each wire's increasing stations [m].
+    grid_uv : callable
+        ``grid_uv(list of stations) -> list of (u, v)``, one pair per wire.
+    clearance_m : callable
+        ``clearance_m(list of stations) -> list of g`` [m], one array per wire.
+
+    Returns
+    -------
+    list of numpy.ndarray
+        Each wire's stations, as :func:`exact_minimum_stations` gives them.
+    """
+    stations = [np.asarray(s, dtype=float) for s in stations_m]
+    found = [grid_line_crossings(s, u, v) for s, (u, v) in zip(stations, grid_uv(stations), strict=True)]
+    crossings = [crossing for crossing, *_ in found]
+    for i, at in enumerate(grid_uv(crossings) if any(len(c) for c in crossings) else ()):
+        crossing, axis, level, slope = found[i]
+        if not len(crossing):
+            continue
         # one secant step from the chord onto the real plan path (curved under wind)
-        at = grid_uv(crossing)
         residual = np.where(axis == 0, at[0], at[1]) - level
-        corrected = crossing - np.nan_to_num(residual) / slope
-        crossing = np.clip(corrected, first, last)
-    pieces = np.unique(np.concatenate([s, crossing]))
-    middle = (pieces[:-1] + pieces[1:]) / 2.0
-    g = clearance_m(np.concatenate([pieces, middle]))
-    g_ends, g_mid = g[:len(pieces)], g[len(pieces):]
-    vertex = quadratic_vertex_stations(pieces[:-1], pieces[1:], g_ends[:-1], g_mid, g_ends[1:])
-    return np.unique(np.concatenate([pieces, vertex]))
+        crossings[i] = np.clip(crossing - np.nan_to_num(residual) / slope, stations[i][0], stations[i][-1])
+    pieces = [np.unique(np.concatenate([s, crossing])) for s, crossing in zip(stations, crossings)]
+    asked = [np.concatenate([p, (p[:-1] + p[1:]) / 2.0]) for p in pieces]
+    result = []
+    for p, g in zip(pieces, clearance_m(asked), strict=True):
+        g_ends, g_mid = g[:len(p)], g[len(p):]
+        vertex = quadratic_vertex_stations(p[:-1], p[1:], g_ends[:-1], g_mid, g_ends[1:])
+        result.append(np.unique(np.concatenate([p, vertex])))
+    return result
 
 
 def zero_crossing_bounds(s0_m, s1_m, f0, f1):

@@ -22,6 +22,8 @@ References
 .. [3] Irvine, H.M., Cable Structures, MIT Press, 1981 (elastic catenary).
 """
 
+from functools import lru_cache
+
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
@@ -206,6 +208,20 @@ def physical_tension_range(span_m, weight_n_m, axial_stiffness_n, describe=""):
     routesag.errors.SolveError
         If no horizontal tension gives a mean tension below ``EA``.
     """
+    found = _physical_tension_range(float(span_m), float(weight_n_m), float(axial_stiffness_n))
+    if found is None:
+        raise SolveError(f"change of state impossible: every horizontal tension gives a mean tension of at "
+                         f"least EA = {axial_stiffness_n:.4g} N ({describe})")
+    return found
+
+
+@lru_cache(maxsize=4096)
+def _physical_tension_range(span_m, weight_n_m, axial_stiffness_n):
+    """(low_n, high_n) of :func:`physical_tension_range`, or None when there is none.
+
+    It depends on the span, the load and EA only, so a sag table's temperatures and the load cases of equal
+    weight share one search (cached; the same floats give the same result).
+    """
     def excess(log_h):
         return float(mean_tension(span_m, 0.0, np.exp(log_h), weight_n_m)) / axial_stiffness_n - 1.0
 
@@ -214,8 +230,7 @@ def physical_tension_range(span_m, weight_n_m, axial_stiffness_n, describe=""):
     best = minimize_scalar(excess, bounds=(slackest, tightest), method="bounded",
                            options={"xatol": 1e-10}).x
     if excess(best) >= 0:
-        raise SolveError(f"change of state impossible: every horizontal tension gives a mean tension of at "
-                         f"least EA = {axial_stiffness_n:.4g} N ({describe})")
+        return None
     low = slackest if excess(slackest) < 0 else brentq(excess, slackest, best, xtol=1e-14)
     high = brentq(excess, best, tightest, xtol=1e-14)
     return float(np.exp(low)), float(np.exp(high))

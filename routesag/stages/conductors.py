@@ -8,7 +8,7 @@ import numpy as np
 import pandas as pd
 
 from routesag.errors import DataError
-from routesag.physics.bilinear import exact_minimum_stations
+from routesag.physics.bilinear import exact_minimum_stations, exact_minimum_stations_many
 from routesag.physics.conductor3d import conductor_points, conductor_stations, span_geometry
 from routesag.pipeline import Stage
 from routesag.profiles import ConductorProfile, Profiles
@@ -32,7 +32,7 @@ class BuildConductors(Stage):
         ctx.notes["station_m"] = station_m
         rows = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
         terrain = TerrainView(data["terrain"], data["work_crs"])
-        return {"conductors": Profiles(span_profile(row, station_m, terrain) for row in rows.to_dict("records"))}
+        return {"conductors": Profiles(span_profiles(rows.to_dict("records"), station_m, terrain))}
 
 
 @dataclass(frozen=True)
@@ -56,6 +56,27 @@ class TerrainView:
             return xyz[:, 2] - self.sampler.sample(xyz[:, 0], xyz[:, 1], crs=self.crs)
 
         return exact_minimum_stations(stations_m, grid_uv, clearance)
+
+    def exact_stations_many(self, stations_m, wires_at):
+        """:meth:`exact_stations` for several wires (a span's wires and load cases): one terrain query per step.
+
+        ``stations_m`` and ``wires_at`` are lists, one entry per wire; the samples are those of
+        :meth:`exact_stations` (bilinear interpolation is per point, whatever the batch).
+        """
+        def stacked(many):
+            parts = [wire_at(s) for wire_at, s in zip(wires_at, many, strict=True)]
+            return np.concatenate(parts), np.cumsum([len(p) for p in parts])[:-1]
+
+        def grid_uv(many):
+            xyz, cuts = stacked(many)
+            u, v = self.sampler.grid_coords(xyz[:, 0], xyz[:, 1], crs=self.crs)
+            return list(zip(np.split(u, cuts), np.split(v, cuts)))
+
+        def clearance(many):
+            xyz, cuts = stacked(many)
+            return np.split(xyz[:, 2] - self.sampler.sample(xyz[:, 0], xyz[:, 1], crs=self.crs), cuts)
+
+        return exact_minimum_stations_many(stations_m, grid_uv, clearance)
 
 
 def effective_station_m(station_m: float, terrain) -> tuple[float, str | None]:
@@ -107,28 +128,67 @@ def span_profile(row, station_m: float, terrain: TerrainView | None = None) -> C
     load_case and (optionally) wire. With ``terrain``, the stations also hold every point where
     the minimum clearance to the bilinear terrain can lie (grid-line crossings, quadratic vertices).
     """
-    start = np.array([row["x0"], row["y0"], row["z0"]], dtype=float)
-    end = np.array([row["x1"], row["y1"], row["z1"]], dtype=float)
-    s, dz = float(np.hypot(*(end - start)[:2])), float(end[2] - start[2])
-    h, w, phi = float(row["horizontal_tension_n"]), float(row["resultant_n_m"]), float(row["blowout_rad"])
-    side = float(row["side"])
-    geometry = span_geometry(s, dz, h, w, phi)
-    low_m = float(geometry.low_point_m)  # the wire's lowest point, also under wind on an inclined span
-    stations = conductor_stations(s, station_m, low_m)
-
-    def wire_at(stations_m):
-        return conductor_points(start, end, h, w, phi, stations_m, side=side)
-
+    wire = HangingWire(row, station_m)
+    stations = wire.stations
     if terrain is not None:
-        stations = terrain.exact_stations(stations, wire_at)
-    xyz = wire_at(stations)
-    across = np.array([end[1] - start[1], start[0] - end[0]]) / s   # horizontal unit normal of the chord
-    return ConductorProfile(
-        span_id=row["span_id"], section_id=row["section_id"], load_case=row["load_case"],
-        stations_m=stations, xyz=xyz, horizontal_tension_n=h,
-        max_tension_n=float(geometry.max_tension_n), sag_m=float(geometry.sag_m),
-        low_point_m=low_m, catenary_m=float(geometry.catenary_m), blowout_deg=float(row["blowout_deg"]), wire=str(row.get("wire", "")),
-        swung_sag_m=float(geometry.swung_sag_m), blowout_m=_blowout_m(xyz, start, across, phi))
+        stations = terrain.exact_stations(stations, wire.at)
+    return wire.profile(stations)
+
+
+def span_profiles(rows, station_m: float, terrain: TerrainView | None = None) -> list[ConductorProfile]:
+    """:func:`span_profile` of every row, in order; the rows of one span (its wires and load cases) ask the
+    terrain together, so each step of the exact-minimum search is one terrain query per span."""
+    wires = [HangingWire(row, station_m) for row in rows]
+    if terrain is None:
+        return [w.profile(w.stations) for w in wires]
+    profiles = []
+    for group in _consecutive_spans(wires):
+        stations = terrain.exact_stations_many([w.stations for w in group], [w.at for w in group])
+        profiles.extend(w.profile(s) for w, s in zip(group, stations, strict=True))
+    return profiles
+
+
+def _consecutive_spans(wires):
+    group = []
+    for wire in wires:
+        if group and wire.row["span_id"] != group[0].row["span_id"]:
+            yield group
+            group = []
+        group.append(wire)
+    if group:
+        yield group
+
+
+class HangingWire:
+    """One span, wire and load case between its clamps: the exact catenary, its regular stations and its points."""
+
+    def __init__(self, row, station_m: float):
+        self.row = row
+        self.start = np.array([row["x0"], row["y0"], row["z0"]], dtype=float)
+        self.end = np.array([row["x1"], row["y1"], row["z1"]], dtype=float)
+        s, dz = float(np.hypot(*(self.end - self.start)[:2])), float(self.end[2] - self.start[2])
+        self.span_m = s
+        self.h = float(row["horizontal_tension_n"])
+        self.w, self.phi = float(row["resultant_n_m"]), float(row["blowout_rad"])
+        self.side = float(row["side"])
+        self.geometry = span_geometry(s, dz, self.h, self.w, self.phi)
+        self.low_m = float(self.geometry.low_point_m)  # the wire's lowest point, also under wind on an inclined span
+        self.stations = conductor_stations(s, station_m, self.low_m)
+
+    def at(self, stations_m):
+        return conductor_points(self.start, self.end, self.h, self.w, self.phi, stations_m, side=self.side)
+
+    def profile(self, stations) -> ConductorProfile:
+        row, start, end, geometry = self.row, self.start, self.end, self.geometry
+        xyz = self.at(stations)
+        across = np.array([end[1] - start[1], start[0] - end[0]]) / self.span_m  # horizontal unit normal of the chord
+        return ConductorProfile(
+            span_id=row["span_id"], section_id=row["section_id"], load_case=row["load_case"],
+            stations_m=stations, xyz=xyz, horizontal_tension_n=self.h,
+            max_tension_n=float(geometry.max_tension_n), sag_m=float(geometry.sag_m),
+            low_point_m=self.low_m, catenary_m=float(geometry.catenary_m), blowout_deg=float(row["blowout_deg"]),
+            wire=str(row.get("wire", "")), swung_sag_m=float(geometry.swung_sag_m),
+            blowout_m=_blowout_m(xyz, start, across, self.phi))
 
 
 def _blowout_m(xyz, start, across, blowout_rad) -> float:

@@ -12,6 +12,11 @@ from routesag.pipeline import Stage
 from routesag.stages.terrain import warn_implausible
 
 
+#: Terrain windows held by the sampler: more than a section's spans, so the terrain stage finds every span's
+#: cells still in memory after the conductors were placed on them (one read per span; at most ~2 MB each).
+HELD_TERRAIN_WINDOWS = 16
+
+
 class ReadInputs(Stage):
     name = "read_inputs"
     requires = ("project",)
@@ -76,7 +81,8 @@ def read_and_check(project, ctx=None):
         problems.extend(exc.problems)
     try:
         terrain = TerrainSampler(project.terrain_path, z_units=project.terrain_z_units,
-                                 crs=inputs.get("terrain_crs"), nodata=inputs.get("terrain_nodata"))
+                                 crs=inputs.get("terrain_crs"), nodata=inputs.get("terrain_nodata"),
+                                 hold_windows=HELD_TERRAIN_WINDOWS)
     except DataError as exc:
         problems.extend(exc.problems)
     if problems:

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import json
 from collections import OrderedDict
+from dataclasses import replace
 from datetime import datetime, timezone
 
 import geopandas as gpd
@@ -11,11 +12,12 @@ import pandas as pd
 import shapely
 
 from routesag import __version__
-from routesag.io.gpkg import write_layers
+from routesag.io.gpkg import GeoPackageWriter, write_layers
 from routesag.io.gpkg_version import DEFAULT_VERSION
 from routesag.io.hashing import input_sha256
 from routesag.pipeline import Stage
-from routesag.stages.tidy import tidy_layers
+from routesag.profiles import Profiles
+from routesag.stages.tidy import only_wire, tidy_layers
 
 CAUTION = ("Screening aid only: loads and required clearances come from the governing code (NESC, EN 50341 "
            "national annex, local rules); results must be confirmed by a licensed engineer.")
@@ -25,13 +27,113 @@ VIOLATION_COLUMNS = ["span_id", "from_id", "to_id", "section_id", "wire", "load_
                      "surface_x", "surface_y", "surface_z"]
 TEXT_COLUMNS = ("load_case", "category", "reason", "load_cases", "categories", "span_ids", "wire", "wires")
 INTEGER_COLUMNS = ("rank", "n_violations")
+#: Conductor stations buffered before a batch of sections is written to the GeoPackage (one transaction).
+STREAM_BATCH_STATIONS = 200_000
+
+
+class OpenOutput(Stage):
+    name = "open_output"
+    requires = ("project", "structures", "spans", "sections", "tensions", "work_crs")
+    provides = ("output_stream",)
+    description = ("open the temporary GeoPackage, write the line-level layers and take each section's "
+                   "conductors as it finishes (batches of sections, one transaction each)")
+
+    def run(self, data, ctx):
+        project = data["project"]
+        stream = LayerStream(project.output_path, data, protect=tuple(project.input_paths().values()),
+                             version=gpkg_version(project))
+        ctx.section_sinks.append(stream.take_section)
+        return {"output_stream": stream}
+
+
+class LayerStream:
+    """The run's GeoPackage while it is being written: line-level layers first, then conductors by batches.
+
+    The 3D stations of a finished section go to the temporary file and leave
+    memory; what the finish keeps of each profile is its summary (tensions,
+    sag), with empty station arrays. Nothing reaches the destination before
+    :meth:`commit`; :meth:`close` without a commit removes the temporary file.
+    """
+
+    def __init__(self, path, data, protect=(), version=DEFAULT_VERSION):
+        self.writer = GeoPackageWriter(path, protect=protect, version=version)
+        self.crs, self.spans, self.tensions = data["work_crs"], data["spans"], data["tensions"]
+        self.wire = only_wire(self.tensions)
+        self.early = tidy_layers(line_level_layers(data), self.wire)
+        self._pending: list[gpd.GeoDataFrame] = []
+        self._pending_stations = 0
+        self.streamed: set[str] = set()
+        try:
+            for name, (frame, geometry) in self.early.items():
+                self.writer.write(name, frame, geometry)
+        except BaseException:
+            self.close()
+            raise
+
+    def take_section(self, result: dict) -> dict:
+        """Sink of one section's results: its conductor rows are queued (and written by batch), its
+        profiles come back without stations."""
+        if "conductors" not in result or "clearance" not in result:
+            return result
+        profiles = result["conductors"]
+        rows = conductors_layer(profiles, result["clearance"], self.tensions, self.spans, self.crs)
+        self._pending.append(tidy_layers({"conductors": (rows, None)}, self.wire)["conductors"][0])
+        self._pending_stations += sum(len(p.xyz) for p in profiles)
+        self.streamed.add("conductors")
+        if self._pending_stations >= STREAM_BATCH_STATIONS:
+            self.flush()
+        return {**result, "conductors": summaries(profiles)}
+
+    def flush(self) -> None:
+        """Write the queued sections' conductor rows in one transaction."""
+        filled = [f for f in self._pending if len(f)] or self._pending[:1]
+        if filled:
+            self.writer.write("conductors", pd.concat(filled, ignore_index=True) if len(filled) > 1 else filled[0],
+                              "LineString Z")
+        self._pending, self._pending_stations = [], 0
+
+    def finish(self, layers) -> None:
+        """Write the remaining layers in order after the streamed ones, then move the file into place."""
+        self.flush()
+        for name, (frame, geometry) in layers.items():
+            if name not in self.writer.layers:
+                self.writer.write(name, frame, geometry)
+        self.writer.commit()
+
+    def close(self) -> None:
+        self.writer.discard()
+
+
+def summaries(profiles) -> Profiles:
+    """The profiles without their station arrays (what the line-level finish needs of them)."""
+    stations, points = np.empty(0), np.empty((0, 3))
+    return Profiles(replace(p, stations_m=stations, xyz=points) for p in profiles)
+
+
+def line_level_layers(data) -> OrderedDict:
+    """The layers known before any section runs: structures, spans, sections."""
+    crs, spans = data["work_crs"], data["spans"]
+    layers = OrderedDict()
+    layers["structures"] = (structures_layer(data["structures"], spans, crs), "Point Z")
+    layers["spans"] = (spans_layer(spans, crs), "LineString Z")
+    layers["sections"] = (sections_layer(data["sections"], data["tensions"]), None)
+    return layers
+
+
+def gpkg_version(project) -> str:
+    """The GeoPackage version the output declares (``[output] gpkg_version``)."""
+    return project.settings.get("output", {}).get("gpkg_version", DEFAULT_VERSION)
+
+
+#: Stands in a layers entry for a layer whose rows went to the GeoPackage as the sections finished.
+STREAMED = None
 
 
 class AssembleLayers(Stage):
     name = "assemble_layers"
     requires = ("project", "structures", "spans", "sections", "tensions", "conductors", "clearance",
                 "violations", "structure_loads", "tension_exceedances", "sag_table", "hotspots",
-                "unknown_stretches", "work_crs")
+                "unknown_stretches", "work_crs", "output_stream")
     provides = ("layers",)
     description = ("turn results into GeoDataFrames: structures, spans, sections, conductors, violations, "
                    "structure loads, tension exceedances, sag table, hotspots, unknown stretches, run_info")
@@ -39,12 +141,13 @@ class AssembleLayers(Stage):
     def run(self, data, ctx):
         crs = data["work_crs"]
         spans = data["spans"]
-        layers = OrderedDict()
-        layers["structures"] = (structures_layer(data["structures"], spans, crs), "Point Z")
-        layers["spans"] = (spans_layer(spans, crs), "LineString Z")
-        layers["sections"] = (sections_layer(data["sections"], data["tensions"]), None)
-        layers["conductors"] = (conductors_layer(data["conductors"], data["clearance"], data["tensions"],
-                                                 spans, crs), "LineString Z")
+        stream = data.get("output_stream")
+        layers = OrderedDict(stream.early if stream is not None else line_level_layers(data))
+        if stream is not None and "conductors" in stream.streamed:
+            layers["conductors"] = (STREAMED, "LineString Z")
+        else:
+            layers["conductors"] = (conductors_layer(data["conductors"], data["clearance"], data["tensions"],
+                                                     spans, crs), "LineString Z")
         layers["clearance_violations"] = (violations_layer(data["violations"], spans, crs), "Point Z")
         layers["structure_loads"] = (structure_loads_layer(data["structure_loads"], crs), "Point Z")
         layers["tension_exceedances"] = (data["tension_exceedances"].copy(), None)
@@ -56,22 +159,26 @@ class AssembleLayers(Stage):
             if data.get(name) is not None:
                 layers[name] = (data[name], geometry)
         layers["run_info"] = (run_info_table(data["project"], ctx), None)
-        return {"layers": tidy_layers(layers)}
+        return {"layers": tidy_layers(layers, only_wire(data["tensions"]))}
 
 
 class WriteGeoPackage(Stage):
     name = "write_geopackage"
-    requires = ("project", "layers")
+    requires = ("project", "layers", "output_stream")
     provides = ("geopackage",)
-    description = "write every layer to the output GeoPackage atomically (temp file, then rename)"
+    description = "write the remaining layers to the temporary GeoPackage, then move it into place (atomic rename)"
 
     def run(self, data, ctx):
         project = data["project"]
         layers = data["layers"]
         if "run_info" in layers:  # rebuilt now, so the notes and warnings of every stage before the writer are in it
             layers["run_info"] = (run_info_table(project, ctx), None)
-        write_layers(project.output_path, layers, protect=tuple(project.input_paths().values()),
-                     version=project.settings.get("output", {}).get("gpkg_version", DEFAULT_VERSION))
+        stream = data.get("output_stream")
+        if stream is None:
+            write_layers(project.output_path, layers, protect=tuple(project.input_paths().values()),
+                         version=gpkg_version(project))
+        else:
+            stream.finish(layers)
         return {"geopackage": project.output_path}
 
 

@@ -29,11 +29,18 @@ _TEXT = ("wire", "wires", "load_case", "load_cases", "category", "categories", "
          "applies_to")
 
 
-def tidy_layers(layers: dict) -> dict:
-    """Every layer with its stable columns, integer columns as integers and line-end kinds stated."""
-    wire = _only_wire(layers)
+def tidy_layers(layers: dict, wire: str | None = None) -> dict:
+    """Every layer with its stable columns, integer columns as integers and line-end kinds stated.
+
+    ``wire``: the run's wire name when it has exactly one, else "" (default: found in the conductors layer).
+    A layer held as None (streamed to the file already) is passed through.
+    """
+    wire = _only_wire(layers) if wire is None else wire
     out = type(layers)()
     for name, (frame, *spec) in layers.items():
+        if frame is None:
+            out[name] = (frame, *spec)
+            continue
         frame = _stable_columns(frame, STABLE_COLUMNS.get(name, ()), wire)
         frame = _integers(frame)
         if name == "structures":
@@ -45,7 +52,12 @@ def tidy_layers(layers: dict) -> dict:
 def _only_wire(layers) -> str:
     """The wire's name when the run has exactly one (fills ``wire`` in rows that lack it), else empty."""
     conductors = layers.get("conductors", (pd.DataFrame(),))[0]
-    names = set(conductors["wire"].dropna().astype(str)) if "wire" in conductors else set()
+    return only_wire(conductors)
+
+
+def only_wire(frame) -> str:
+    """The one wire name in ``frame``'s ``wire`` column, or "" (none, several, or no such column)."""
+    names = set(frame["wire"].dropna().astype(str)) if frame is not None and "wire" in frame else set()
     return names.pop() if len(names) == 1 else ""
 
 

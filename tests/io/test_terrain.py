@@ -262,3 +262,19 @@ def test_properties(plane_tif):
         assert terrain.nodata == NODATA
         assert tuple(terrain.bounds) == (X0, Y0 - ROWS * RES, X0 + COLS * RES, Y0)
         assert terrain.path == plane_tif
+
+
+def test_held_windows_give_the_same_samples_with_fewer_reads(tmp_path, rng):
+    # Rough terrain (random cells, nodata holes, the raster edge) so any misplaced cell would show.
+    data = rng.uniform(100.0, 140.0, size=(ROWS, COLS)).astype("float32")
+    data[40:44, 60:63] = NODATA
+    path = write_raster(tmp_path / "rough.tif", data)
+    # Three nearby point sets (like the wires of one span) and their union (like the terrain stage after them).
+    sets = [interior_points(rng, 200, X0 + 60.0 + k, X0 + 190.0 + k, Y0 - 140.0, Y0 - 2.0) for k in (0.0, 6.0, 12.0)]
+    sets.append(tuple(np.concatenate(parts) for parts in zip(*sets)))
+    with TerrainSampler(path) as plain, TerrainSampler(path, hold_windows=4) as holding:
+        for x, y in sets:
+            np.testing.assert_array_equal(holding.sample(x, y), plain.sample(x, y))  # same cells: bit-identical
+        assert plain.sample_window_count == 4
+        assert holding.sample_window_count == 1  # the first window, grown by the margin, serves the rest
+    assert holding.reference().hold_windows == 4

@@ -3,7 +3,7 @@ the stated bound, on random rasters, spans and angles (pure numpy; the bilinear 
 import numpy as np
 from hypothesis import given, settings, strategies as st
 
-from routesag.physics.bilinear import BOUND_M, exact_minimum_stations, grid_line_crossings
+from routesag.physics.bilinear import BOUND_M, exact_minimum_stations, exact_minimum_stations_many, grid_line_crossings
 
 
 def bilinear(grid, u, v):
@@ -51,3 +51,34 @@ def test_crossings_of_a_diagonal_chord():
     order = np.argsort(s)
     np.testing.assert_allclose(s[order], [0.7, 0.8, 1.7, 1.8])
     assert list(axis[order]) == [1, 0, 1, 0] and list(level[order]) == [1, 1, 2, 2]
+
+
+def test_many_wires_at_once_equal_one_at_a_time():
+    # Three wires: oblique over a rough grid, one inside a single cell (no grid line crossed), and a short one.
+    grid = np.random.default_rng(3).uniform(0.0, 10.0, (40, 40))
+    starts = [np.array([5.3, 6.1]), np.array([20.2, 20.2]), np.array([30.6, 8.4])]
+    directions = [np.array([0.8, 0.6]), np.array([1.0, 0.0]), np.array([0.0, 1.0])]
+    spans = [25.0, 0.5, 3.0]
+
+    def plan(k, s):
+        return tuple(starts[k][:, None] + directions[k][:, None] * np.asarray(s))
+
+    def clearance(k, s):
+        s = np.asarray(s)
+        return 15.0 + 0.01 * (s - spans[k] / 2) ** 2 - bilinear(grid, *plan(k, s))
+
+    stations = [np.linspace(0.0, span, max(int(np.ceil(span)), 1) + 1) for span in spans]
+    asked = []
+
+    def many_uv(lists):
+        asked.append(len(lists))
+        return [plan(k, s) for k, s in enumerate(lists)]
+
+    together = exact_minimum_stations_many(stations, many_uv,
+                                           lambda lists: [clearance(k, s) for k, s in enumerate(lists)])
+    alone = [exact_minimum_stations(s, lambda x, k=k: plan(k, x), lambda x, k=k: clearance(k, x))
+             for k, s in enumerate(stations)]
+    assert len(grid_line_crossings(stations[1], *plan(1, stations[1]))[0]) == 0  # the wire that crosses none
+    for a, b in zip(together, alone, strict=True):
+        np.testing.assert_array_equal(a, b)
+    assert asked == [3, 3]  # all wires in each query, also those that cross no grid line

@@ -49,3 +49,43 @@ def test_low_point_is_the_lowest_point_of_the_wire_under_wind(tmp_path):
     lowest_x = xyz[np.argmin(xyz[:, 2]), 0] - X0  # independent: the lowest of the dense 3D points
     assert row["low_point_m"] == pytest.approx(lowest_x, abs=0.3)
     assert 0.0 < row["low_point_m"] < 350.0
+
+
+def test_span_batched_profiles_equal_the_per_span_ones(tmp_path):
+    """span_profiles (one terrain query per span and step) gives exactly span_profile's stations and points."""
+    import rasterio
+    from rasterio.transform import from_origin
+
+    from routesag.api import compute
+    from routesag.stages.conductors import TerrainView, span_cases, span_profile, span_profiles
+    from tests.conftest import CRS, X0, Y0, write_project, write_structures
+
+    rng = np.random.default_rng(9)
+    z = (100.0 + rng.uniform(0.0, 3.0, size=(300, 800))).astype("float32")  # rough: many kinks, vertices
+    z[140:150, 300:320] = -9999.0                                            # and a nodata hole
+    with rasterio.open(tmp_path / "terrain.tif", "w", driver="GTiff", width=800, height=300, count=1,
+                       dtype="float32", crs=CRS, transform=from_origin(X0 - 100, Y0 + 300, 1.5, 1.5),
+                       nodata=-9999.0) as dst:
+        dst.write(z, 1)
+    write_structures(tmp_path / "structures.gpkg", [(X0, Y0 + 100), (X0 + 380, Y0 + 130), (X0 + 700, Y0 + 90),
+                                                    (X0 + 1000, Y0 + 110)],
+                     kinds=["strain", "suspension", "strain", "strain"], extra={"insulator_m": [0, 2.0, 0, 0]})
+    wires = '\n[[wires]]\nname = "left"\noffset_m = -4.0\n\n[[wires]]\nname = "right"\noffset_m = 4.0\n'
+    project = write_project(tmp_path, cases=[("hot", 80.0, 0.0, 0.0), ("wind", 15.0, 0.0, 500.0)],
+                            station_m=1.5, extra=wires)
+    data = compute(project, ("wire_spans", "tensions", "structure_loads", "work_crs"))
+    try:
+        rows = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"]).to_dict("records")
+        view = TerrainView(data["terrain"], data["work_crs"])
+        batched = span_profiles(rows, 1.5, view)
+        single = [span_profile(row, 1.5, view) for row in rows]
+    finally:
+        data["terrain"].close()
+    assert len(rows) == 12 and len(batched) == len(single)
+    assert any(p.blowout_deg > 10 for p in single)
+    for a, b in zip(batched, single, strict=True):
+        assert a.key == b.key
+        assert len(a.stations_m) > 1.2 * (a.stations_m[-1] / 1.5)  # exact-minimum stations were added
+        np.testing.assert_array_equal(a.stations_m, b.stations_m)
+        np.testing.assert_array_equal(a.xyz, b.xyz)
+        assert (a.sag_m, a.blowout_m, a.max_tension_n) == (b.sag_m, b.blowout_m, b.max_tension_n)

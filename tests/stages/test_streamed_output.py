@@ -1,0 +1,118 @@
+"""Streamed output: conductors reach the temporary GeoPackage section by section, the result is unchanged."""
+from __future__ import annotations
+
+import pandas as pd
+import pyogrio
+import pytest
+import shapely
+
+import routesag
+import routesag.io.gpkg as gpkg
+import routesag.stages.output as output
+from routesag.api import compute
+from routesag.io.gpkg import write_layers
+
+
+def layer_frames(path):
+    """Every layer of a GeoPackage in listed order, geometry as WKB (exact coordinates, Z included)."""
+    frames = {}
+    for name, _ in pyogrio.list_layers(path):
+        frame = pd.DataFrame(pyogrio.read_dataframe(path, layer=name))
+        if "geometry" in frame:
+            frame["geometry"] = shapely.to_wkb(frame["geometry"].to_numpy(), hex=True)
+        frames[name] = frame
+    return frames
+
+
+def in_memory_conductors(project):
+    """The conductors layer built at once from the merged sections (how it was written before streaming)."""
+    data = compute(project, ("conductors", "clearance", "tensions", "spans", "work_crs"))
+    try:
+        return output.conductors_layer(data["conductors"], data["clearance"], data["tensions"], data["spans"],
+                                       data["work_crs"])
+    finally:
+        data["terrain"].close()
+
+
+@pytest.fixture
+def deep(tmp_path):
+    """The two-section survey with a clearance the wire misses, so there are violation rows too."""
+    from tests.conftest import X0, Y0, write_plane_raster, write_project, write_structures
+
+    xs = [0.0, 300.0, 550.0, 900.0, 1200.0]
+    write_plane_raster(tmp_path / "terrain.tif", a=100.0, bx=0.01, cy=0.02, shape=(400, 900))
+    write_structures(tmp_path / "structures.gpkg", [(X0 + x, Y0 + 200.0) for x in xs],
+                     kinds=["strain", "suspension", "strain", "suspension", "strain"])
+    return write_project(tmp_path, ground_m=14.0)
+
+
+def test_streamed_conductors_equal_the_layer_built_at_once(deep, tmp_path, monkeypatch):
+    monkeypatch.setattr(output, "STREAM_BATCH_STATIONS", 1)  # every section its own batch
+    result = routesag.run(deep, read_back=False)
+    assert result["clearance_violations"].shape[0] > 0
+    reference = tmp_path / "reference.gpkg"
+    write_layers(reference, {"conductors": (in_memory_conductors(deep), "LineString Z")})
+    streamed = layer_frames(result.path)["conductors"]
+    pd.testing.assert_frame_equal(streamed, layer_frames(reference)["conductors"], check_exact=True)
+
+
+def test_batch_size_changes_nothing_but_the_number_of_writes(deep, tmp_path, monkeypatch):
+    writes = []
+    real_write = gpkg._write_one
+    monkeypatch.setattr(gpkg, "_write_one", lambda path, name, *a, **k: (writes.append(name),
+                                                                          real_write(path, name, *a, **k)))
+    frames = {}
+    for batch in (1, 10**9):
+        monkeypatch.setattr(output, "STREAM_BATCH_STATIONS", batch)
+        writes.clear()
+        frames[batch] = layer_frames(routesag.run(deep, out=tmp_path / f"b{batch}.gpkg").path)
+        frames[batch]["run_info"] = frames[batch]["run_info"].query("key not in ('run_utc', 'output_file')")
+        frames[batch]["run_info"] = frames[batch]["run_info"][~frames[batch]["run_info"]["key"].str.contains(
+            "seconds")].reset_index(drop=True)
+        assert writes.count("conductors") == (2 if batch == 1 else 1)  # one transaction per batch of sections
+        assert len(writes) == len(set(writes)) + writes.count("conductors") - 1
+    assert list(frames[1]) == list(frames[10**9])
+    for name in frames[1]:
+        pd.testing.assert_frame_equal(frames[1][name], frames[10**9][name], check_exact=True)
+
+
+def test_failure_after_the_first_section_leaves_no_output_and_no_temporary_file(deep, monkeypatch):
+    out = deep.parent / "out.gpkg"
+    routesag.run(deep)  # an earlier result (only a GeoPackage may be replaced)
+    earlier = out.read_bytes()
+    real_take = output.LayerStream.take_section
+    calls = []
+
+    def take_then_fail(self, result):
+        calls.append(1)
+        if len(calls) == 2:
+            assert self.writer.temporary.exists()  # the first section's rows are in the temporary file
+            raise KeyboardInterrupt
+        return real_take(self, result)
+
+    monkeypatch.setattr(output, "STREAM_BATCH_STATIONS", 1)
+    monkeypatch.setattr(output.LayerStream, "take_section", take_then_fail)
+    with pytest.raises(KeyboardInterrupt):
+        routesag.run(deep)
+    assert out.read_bytes() == earlier
+    assert sorted(p.name for p in deep.parent.iterdir() if p.name.startswith(".")) == []
+
+
+def test_finish_profiles_keep_their_summary_without_stations(deep):
+    from routesag.profiles import Profiles
+
+    data = compute(deep, ("conductors",))
+    data["terrain"].close()
+    light = output.summaries(data["conductors"])
+    assert isinstance(light, Profiles) and light.keys() == data["conductors"].keys()
+    assert all(len(p.xyz) == 0 and len(p.stations_m) == 0 for p in light)
+    assert [p.sag_m for p in light] == [p.sag_m for p in data["conductors"]]
+
+
+def test_input_hashes_are_those_of_the_files(deep):
+    from routesag.io.hashing import sha256_file
+
+    info = routesag.run(deep)["run_info"].set_index("key")["value"]
+    for role in ("structures", "terrain"):
+        path = info[f"input.{role}"]
+        assert info[f"input.{role}.sha256"] == sha256_file(path)
