@@ -53,8 +53,19 @@ def run(project_path, out=None, progress=None, workers=None, scheduler=None, on_
     engine = engine_factory(project, workers, scheduler)
     data = _run_closing_terrain(assemble_chain(project.pipeline_stages), project, ctx, progress, engine, on_section)
     layers = {name: frame for name, (frame, _) in data.get("layers", {}).items()}
+    build_configured_report(project, data.get("geopackage"))
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
                      warnings=ctx.warnings, notes=ctx.notes)
+
+
+def build_configured_report(project: Project, geopackage) -> None:
+    """The HTML report of ``[report] dir`` (relative to the project file), when set, from the written file."""
+    settings = project.settings.get("report", {})
+    if geopackage is None or not settings.get("dir"):
+        return
+    from routesag.visual.build import build_report
+
+    build_report(geopackage, project.path.parent / settings["dir"], all_spans=settings.get("all_spans", False))
 
 
 def compute(project_path, targets, progress=None) -> dict:

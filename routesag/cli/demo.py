@@ -28,9 +28,19 @@ def sample_project() -> Path:
 @fail_on_violation_option
 @handle_errors
 def demo_command(out, fail_on_violation):
-    """Run the bundled sample survey and write routesag-demo.gpkg here."""
+    """Run the bundled sample survey; write routesag-demo.gpkg and its report folder here."""
     from routesag.api import run
+
+    from routesag.visual.build import build_report
 
     project = sample_project()
     click.echo(f"sample survey: {project.parent}")
-    finish(run(project, out=Path(out).resolve()), fail_on_violation, per_span=True)
+    result = run(project, out=Path(out).resolve())
+    report = build_report(result.path, report_folder(result.path))
+    click.echo(f"report: {report.index}")
+    finish(result, fail_on_violation, per_span=True)
+
+
+def report_folder(geopackage: Path) -> Path:
+    """The demo's report folder, beside its GeoPackage: ``routesag-demo.gpkg`` -> ``routesag-demo-report/``."""
+    return geopackage.with_name(f"{geopackage.stem}-report")

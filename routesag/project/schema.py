@@ -192,6 +192,11 @@ SCHEMA: dict[str, dict[str, Key]] = {
     "output": {
         "path": Key(str, "results.gpkg", doc="GeoPackage to write"),
     },
+    "report": {
+        "dir": Key(str, None, doc="folder (beside the project file) for an HTML report built with every run"),
+        "title": Key(str, None, doc="the job's one-line description at the top of the report"),
+        "all_spans": Key(bool, False, doc="draw a profile for every span, not only those with findings"),
+    },
     "pipeline": {
         "stages": Key(list, [], list_of_text, doc="stages to add to (or replace in) the built-in chain"),
     },

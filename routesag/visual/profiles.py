@@ -49,18 +49,19 @@ def draw_profile(results: Results, span_id: str):
 
 
 def _draw_ground(ax, results, span, rows):
-    """Terrain (and surface) under the wire's first load case, from the rasters if still present."""
+    """Terrain (and surface objects) under the wire's first load case, from the rasters if still present."""
     xyz = wire_coords(rows.iloc[0].geometry)
-    terrain = sample_raster(results.raster_path("terrain"), xyz[:, :2])
+    notes = [n for n in (results.raster_note("terrain"), results.raster_note("surface")) if n]
+    if notes:
+        ax.text(0.01, 0.02, "\n".join(notes), transform=ax.transAxes, fontsize=9, color=palette.VIOLATION,
+                gid="raster_note")
+    terrain = sample_raster(results, "terrain", xyz[:, :2])
     if terrain is None:
-        ax.text(0.01, 0.02, "terrain raster not found: ground line not drawn", transform=ax.transAxes,
-                fontsize=9, color=palette.VIOLATION)
         return None
     station = stations_along(span, xyz)
-    surface = sample_raster(results.raster_path("surface"), xyz[:, :2])
+    surface = sample_raster(results, "surface", xyz[:, :2])
     if surface is not None:
-        values = json.loads(results.run_info.get("param.inputs", "{}")).get("surface_values", "elevation")
-        top = terrain + surface if values == "height" else surface
+        top = terrain + surface if results.input_settings().get("surface_values") == "height" else surface
         raised = np.where(top > terrain + 0.5, top, np.nan)
         ax.fill_between(station, terrain, raised, where=np.isfinite(raised), color=palette.SURFACE, alpha=0.8,
                         label="surface objects", gid="surface")
@@ -72,9 +73,9 @@ def _draw_ground(ax, results, span, rows):
 
 def _required_by_station(results, span_id, wire, station):
     """Required clearance [m] per station: the ground rule, the violated category inside each violation."""
+    # run_info records the required values after the voltage adder: add nothing here.
     rules = json.loads(results.run_info.get("note.clearance_required_m", "{}"))
-    adder = json.loads(results.run_info.get("note.clearance_adder", "{}")).get("adder_m") or 0.0
-    required = np.full(len(station), rules.get("ground", np.nan) + adder)
+    required = np.full(len(station), rules.get("ground", np.nan))
     found = span_violations(results, span_id)
     for _, v in found[(found["wire"].astype(str) == wire) & (found["category"] != "surface")].iterrows():
         inside = (station >= v["start_m"]) & (station <= v["end_m"])
@@ -85,7 +86,7 @@ def _required_by_station(results, span_id, wire, station):
 def _draw_required(ax, results, span_id, wire, station, terrain):
     required = _required_by_station(results, span_id, wire, station)
     ax.plot(station, terrain + required, color=palette.REQUIRED, linestyle=(0, (6, 3)), linewidth=1.2,
-            label="terrain + required clearance", gid="required")
+            label="terrain + required clearance\n(crossing categories shown where violated)", gid="required")
 
 
 def _draw_unknown(ax, results, span_id, wire):

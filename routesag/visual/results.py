@@ -4,6 +4,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
+import json
+
 import numpy as np
 import pandas as pd
 import pyogrio
@@ -11,6 +13,7 @@ import shapely
 
 from routesag.errors import DataError
 from routesag.io.gpkg import read_layer
+from routesag.io.hashing import sha256_file
 
 LAYERS = ("structures", "spans", "sections", "conductors", "clearance_violations", "hotspots",
           "unknown_stretches", "tension_exceedances", "run_info")
@@ -33,6 +36,20 @@ class Results:
     def case_order(self) -> list[str]:
         return list(dict.fromkeys(self["conductors"]["load_case"].astype(str)))
 
+    def input_settings(self) -> dict:
+        return json.loads(self.run_info.get("param.inputs", "{}"))
+
+    def raster_note(self, key: str) -> str | None:
+        """Why the ``key`` raster's ground line is missing or may not match the run, or None."""
+        path = self.raster_path(key)
+        if path is None:
+            named = self.run_info.get(f"input.{key}")
+            return f"{key} raster {named} not found: not drawn" if named else None
+        recorded = self.run_info.get(f"input.{key}.sha256")
+        if recorded and sha256_file(path) != recorded:
+            return f"{key} raster {path} changed since the run (SHA-256 differs): drawn from the current file"
+        return None
+
 
 def read_results(path) -> Results:
     """Read the layers a report needs; a file that is not a routesag GeoPackage is a DataError."""
@@ -49,6 +66,9 @@ def read_results(path) -> Results:
                         "is it a routesag output?")
     layers = {name: read_layer(path, name) for name in LAYERS}
     info = layers["run_info"]
+    if not {"key", "value"} <= set(info.columns) or "routesag_version" not in set(info["key"].astype(str)):
+        raise DataError(f"results file {path}: layer run_info has no routesag_version key; "
+                        "is it a routesag output?")
     return Results(path, layers, dict(zip(info["key"].astype(str), info["value"].astype(str), strict=True)))
 
 
@@ -63,15 +83,22 @@ def wire_coords(geometry) -> np.ndarray:
     return np.asarray(shapely.get_coordinates(geometry, include_z=True))
 
 
-def sample_raster(path: Path | None, xy: np.ndarray) -> np.ndarray | None:
-    """Raster values at points (nearest cell, read through rasterio's windowed sampler); NaN on nodata."""
+def sample_raster(results: Results, key: str, xy: np.ndarray) -> np.ndarray | None:
+    """Raster ``key`` (``terrain``, ``surface``) at points [m], as the run sampled it; None without the file.
+
+    Uses the run's own sampler (windowed bilinear reads, the raster's CRS and the run's vertical unit),
+    so the drawn ground line is the one the clearances were computed against; NaN on nodata.
+    """
+    path = results.raster_path(key)
     if path is None or len(xy) == 0:
         return None
-    import rasterio
+    from routesag.io.terrain import TerrainSampler
 
-    with rasterio.open(path) as src:
-        values = np.array([v[0] for v in src.sample(map(tuple, xy), masked=True)], dtype=object)
-    return np.array([np.nan if np.ma.is_masked(v) else float(v) for v in values])
+    inputs = results.input_settings()
+    crs = results.run_info.get("note.crs")
+    assigned = inputs.get("terrain_crs") if key == "terrain" else None
+    with TerrainSampler(path, z_units=inputs.get("terrain_z_units", "m"), crs=assigned) as raster:
+        return raster.sample(xy[:, 0], xy[:, 1], crs=crs)
 
 
 def span_violations(results: Results, span_id) -> pd.DataFrame:
