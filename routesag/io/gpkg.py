@@ -20,7 +20,7 @@ from routesag.errors import DataError, OutputError
 _SQLITE_SIDECARS = ("-journal", "-wal", "-shm")
 
 
-def write_layers(path, layers, *, protect=()):
+def write_layers(path, layers, *, protect=(), finalize=None):
     """Write several layers to one GeoPackage atomically.
 
     Parameters
@@ -37,6 +37,9 @@ def write_layers(path, layers, *, protect=()):
         labels a GeoDataFrame that has none.
     protect : iterable of path-like
         Files that must never be overwritten (the run's inputs).
+    finalize : callable, optional
+        Called with the temporary file's path after the layers are written and before the rename
+        (layer styles are added this way), so it lands atomically with them.
 
     Raises
     ------
@@ -66,6 +69,8 @@ def write_layers(path, layers, *, protect=()):
     try:
         for name, frame, geometry_type in prepared:
             _write_one(temporary, name, frame, geometry_type)
+        if finalize is not None:
+            finalize(temporary)
         _fsync(temporary)
         os.replace(temporary, destination)
     except BaseException:

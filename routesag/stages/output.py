@@ -13,6 +13,7 @@ import shapely
 from routesag import __version__
 from routesag.io.gpkg import write_layers
 from routesag.io.hashing import sha256_file
+from routesag.io.layer_styles import write_layer_styles
 from routesag.pipeline import Stage
 
 CAUTION = ("Screening aid only: loads and required clearances come from the governing code (NESC, EN 50341 "
@@ -58,11 +59,13 @@ class WriteGeoPackage(Stage):
     name = "write_geopackage"
     requires = ("project", "layers")
     provides = ("geopackage",)
-    description = "write every layer to the output GeoPackage atomically (temp file, then rename)"
+    description = ("write every layer and the default layer styles to the output GeoPackage atomically "
+                   "(temp file, then rename)")
 
     def run(self, data, ctx):
         project = data["project"]
-        write_layers(project.output_path, data["layers"], protect=tuple(project.input_paths().values()))
+        write_layers(project.output_path, data["layers"], protect=tuple(project.input_paths().values()),
+                     finalize=write_layer_styles)
         return {"geopackage": project.output_path}
 
 

@@ -27,6 +27,7 @@ td.hash {{ font-family: monospace; font-size: .8rem; word-break: break-all; }}
 .swatch {{ display: inline-block; width: 1.4em; height: .8em; vertical-align: middle; border: 1px solid #333; }}
 figure {{ margin: 1rem 0 2rem; }}
 figure img {{ max-width: 100%; height: auto; border: 1px solid #ddd; }}
+.note {{ font-size: .8rem; }}
 .warnings li {{ color: #7a2e00; }}
 @media print {{
   body {{ max-width: none; margin: 0; font-size: 10pt; }}
@@ -72,6 +73,18 @@ def _cell(value, digits=2, css=""):
     return f'<td class="num" data-v="{value:.6g}">{value:.{digits}f}</td>'
 
 
+def _clearance_cell(worst) -> str:
+    """Worst clearance of one load case; says when it is to a surface object and when stretches are unknown."""
+    if not isinstance(worst, tuple):
+        return _cell(worst)
+    value, what, unknown_m = worst
+    notes = [what] if what else []
+    notes += [f"{unknown_m:.0f} m unknown"] if unknown_m > 0 else []
+    extra = f' <span class="note">({escape(", ".join(notes))})</span>' if notes else ""
+    css = "num status-unknown" if unknown_m > 0 else "num"
+    return f'<td class="{css}" data-v="{value:.6g}">{value:.2f}{extra}</td>'
+
+
 def _link(span_id, profiles) -> str:
     text = escape(str(span_id))
     if span_id in profiles:
@@ -104,14 +117,14 @@ def hotspot_table(results, profiles) -> str:
 def span_table(results, profiles) -> str:
     cases = results.case_order()
     as_found = tables.has_as_found(results)
-    names = ["span", "from", "to", "section", "span [m]"] + [f"worst clearance {escape(c)} [m]" for c in cases]
+    names = ["span", "from", "to", "section", "span [m]"] + [f"worst clearance {escape(c)} [m] (terrain or object)" for c in cases]
     names += ["status", "unknown [m]", "max tension [% RTS]", "design tension [kN]"]
     names += ["as-found tension [kN]"] if as_found else []
     body = []
     for s in tables.span_rows(results):
         cells = [_link(s["span_id"], profiles), _cell(s["from_id"]), _cell(s["to_id"]), _cell(s["section_id"]),
                  _cell(s["span_m"], 1)]
-        cells += [_cell(s["worst_m"][c]) for c in cases]
+        cells += [_clearance_cell(s["worst_m"][c]) for c in cases]
         cells += [_cell(s["status"], css=f"status-{s['status']}"), _cell(s["unknown_m"], 0),
                   _cell(s["max_tension_percent_rts"], 1), _cell(s["design_tension_n"] / 1000.0, 1)]
         if as_found:

@@ -39,16 +39,22 @@ def span_rows(results) -> list[dict]:
     return rows
 
 
-def _worst_clearance(of_case: pd.DataFrame) -> float | str:
-    """Smallest clearance [m] over the wires of one load case; 'unknown' when any wire's is not known."""
+def _worst_clearance(of_case: pd.DataFrame):
+    """Smallest clearance [m] over the wires of one load case, to terrain or to surface objects, whichever is
+    smaller, as (value, 'surface' or '', unknown length [m]); a text value when nothing was measured."""
     if len(of_case) == 0:
         return np.nan
     if (of_case["status"].astype(str) == "unchecked").all():
         return "unchecked"
-    values = of_case["min_clearance_m"].to_numpy(dtype=float)
-    if not np.isfinite(values).any():
+    ground = of_case["min_clearance_m"].to_numpy(dtype=float)
+    surface = (of_case["min_surface_m"].to_numpy(dtype=float) if "min_surface_m" in of_case
+               else np.full(len(ground), np.nan))
+    unknown_m = _max_or_nan(of_case.get("unknown_m"))
+    if not (np.isfinite(ground).any() or np.isfinite(surface).any()):
         return "unknown"
-    return float(np.nanmin(values))
+    g = np.nanmin(ground) if np.isfinite(ground).any() else np.inf
+    o = np.nanmin(surface) if np.isfinite(surface).any() else np.inf
+    return (float(min(g, o)), "surface" if o < g else "", 0.0 if np.isnan(unknown_m) else unknown_m)
 
 
 def _max_or_nan(column) -> float:
