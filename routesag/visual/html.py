@@ -168,7 +168,7 @@ def profile_section(profiles) -> str:
     for span_id, png in profiles.items():
         svg = png.removesuffix(".png") + ".svg"
         figures.append(f'<figure id="{anchor(span_id)}"><img src="{escape(png)}" alt="profile of span '
-                       f'{escape(span_id)}" width="1100" height="500"><figcaption>span {escape(span_id)} '
+                       f'{escape(span_id)}"><figcaption>span {escape(span_id)} '
                        f'(<a href="{escape(png)}">PNG</a>, <a href="{escape(svg)}">SVG</a>)</figcaption></figure>')
     if not figures:
         return "<p>No span has a violation, hotspot or unknown stretch (build with --all for every span).</p>"
@@ -176,7 +176,7 @@ def profile_section(profiles) -> str:
 
 
 def overview_section(overviews) -> str:
-    return "".join(f'<figure><img src="{escape(name)}" alt="plan overview page {n}" width="1100" height="700">'
+    return "".join(f'<figure><img src="{escape(name)}" alt="plan overview page {n}">'
                    f'<figcaption>plan overview, page {n} (<a href="{escape(name)}">PNG</a>, '
                    f'<a href="{escape(name.removesuffix(".png") + ".svg")}">SVG</a>)</figcaption></figure>'
                    for n, name in enumerate(overviews, start=1))

@@ -24,8 +24,15 @@ def pages(results):
             yield line_id, group.iloc[start:start + SPANS_PER_PAGE]
 
 
+def figure_size(spans) -> tuple[float, float]:
+    """Width fixed for the page [in]; height follows the plan's shape so a long, flat line leaves no empty band."""
+    xy = np.vstack([np.asarray(g.coords)[:, :2] for g in spans.geometry])
+    dx, dy = np.ptp(xy[:, 0]), np.ptp(xy[:, 1])
+    return 11.0, float(np.clip(11.0 * dy / max(dx, 1.0) + 2.0, 4.5, 8.5))
+
+
 def draw_overview(results, line_id, spans):
-    fig, ax = plt.subplots(figsize=(11.0, 7.0), layout="constrained")
+    fig, ax = plt.subplots(figsize=figure_size(spans), layout="constrained")
     sections = list(dict.fromkeys(spans["section_id"].astype(str)))
     for k, section in enumerate(sections):
         mine = spans[spans["section_id"].astype(str) == section]

@@ -62,9 +62,12 @@ def _draw_ground(ax, results, span, rows):
     surface = sample_raster(results, "surface", xyz[:, :2])
     if surface is not None:
         top = terrain + surface if results.input_settings().get("surface_values") == "height" else surface
-        raised = np.where(top > terrain + 0.5, top, np.nan)
-        ax.fill_between(station, terrain, raised, where=np.isfinite(raised), color=palette.SURFACE, alpha=0.8,
-                        label="surface objects", gid="surface")
+        # The run's own threshold for what counts as an object above the terrain.
+        min_height_m = json.loads(results.run_info.get("param.clearance", "{}")).get("surface_min_height_m", 0.5)
+        raised = np.where(top > terrain + min_height_m, top, np.nan)
+        if np.isfinite(raised).any():
+            ax.fill_between(station, terrain, raised, where=np.isfinite(raised), color=palette.SURFACE,
+                            alpha=0.8, label="surface objects", gid="surface")
     base = np.nanmin(terrain) - 5.0 if np.isfinite(terrain).any() else 0.0
     ax.fill_between(station, base, terrain, color=palette.TERRAIN, alpha=0.35, linewidth=0)
     ax.plot(station, terrain, color=palette.TERRAIN, linewidth=1.2, label="terrain", gid="terrain")
@@ -128,7 +131,7 @@ def _draw_structures(ax, results, span):
 def _finish_axes(ax, span, wire):
     ax.set_xlabel("distance along span from the first structure [m]")
     ax.set_ylabel("elevation [m]")
-    ax.margins(x=0.03, y=0.12)
+    ax.margins(x=0.03, y=0.2)  # room above the structures for their labels
     ax.grid(True, color="#dddddd", linewidth=0.6)
     ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.14), ncol=4, fontsize=9, frameon=False)
     ax.figure.canvas.draw()
