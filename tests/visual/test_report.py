@@ -216,3 +216,21 @@ def test_project_report_dir_builds_the_report_with_the_run(survey):
     index = survey.parent / "rpt" / "index.html"
     assert index.is_file()
     assert "<h1>Invented test line, re-check</h1>" in index.read_text()
+
+
+def test_overview_pages_a_long_line_and_draws_every_hotspot(demo_results, monkeypatch):
+    from routesag.visual import overview
+
+    monkeypatch.setattr(overview, "SPANS_PER_PAGE", 5)
+    pages = list(overview.pages(demo_results))
+    spans = demo_results["spans"]
+    assert len(pages) == -(-len(spans) // 5)
+    assert sum(len(page) for _, page in pages) == len(spans)
+    drawn = []
+    for line_id, page in pages:
+        fig = overview.draw_overview(demo_results, line_id, page)
+        gids = [a.get_gid() or "" for a in fig.axes[0].get_children()]  # lines and texts included
+        assert "scale_bar" in gids and "north_arrow" in gids
+        drawn += [g for g in gids if g.startswith("hotspot:")]
+        overview.plt.close(fig)
+    assert sorted(drawn) == sorted(f"hotspot:{r}" for r in demo_results["hotspots"]["rank"])
