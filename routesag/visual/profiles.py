@@ -71,25 +71,39 @@ def _draw_ground(ax, results, span, rows):
     base = np.nanmin(terrain) - 5.0 if np.isfinite(terrain).any() else 0.0
     ax.fill_between(station, base, terrain, color=palette.TERRAIN, alpha=0.35, linewidth=0)
     ax.plot(station, terrain, color=palette.TERRAIN, linewidth=1.2, label="terrain", gid="terrain")
-    return station, terrain
+    return station, terrain, xyz[:, :2]
 
 
-def _required_by_station(results, span_id, wire, station):
-    """Required clearance [m] per station: the ground rule, the violated category inside each violation."""
+def _required_by_station(results, span_id, wire, station, xy):
+    """Required clearance [m] per station and whether it is known by category all along the span.
+
+    With the run's crossing areas (unchanged inputs) every station gets its category's value, as the run
+    classified it; without them, the ground rule, and each violation's own category inside that violation.
+    """
+    from routesag.stages.crossings import classify_points
+
     # run_info records the required values after the voltage adder: add nothing here.
     rules = json.loads(results.run_info.get("note.clearance_required_m", "{}"))
-    required = np.full(len(station), rules.get("ground", np.nan))
+    ground_m = rules.get("ground", np.nan)
+    areas = results.crossing_areas
+    if areas is not None and not isinstance(areas, str):
+        return classify_points(xy, areas, ground_m)[0], True
+    required = np.full(len(station), ground_m)
+    if isinstance(areas, str):  # the run had no crossings: the ground rule holds everywhere
+        return required, True
     found = span_violations(results, span_id)
     for _, v in found[(found["wire"].astype(str) == wire) & (found["category"] != "surface")].iterrows():
         inside = (station >= v["start_m"]) & (station <= v["end_m"])
         required[inside] = v["required_m"]
-    return required
+    return required, False
 
 
-def _draw_required(ax, results, span_id, wire, station, terrain):
-    required = _required_by_station(results, span_id, wire, station)
+def _draw_required(ax, results, span_id, wire, station, terrain, xy):
+    required, complete = _required_by_station(results, span_id, wire, station, xy)
+    label = "terrain + required clearance" if complete else \
+        "terrain + required clearance\n(crossings file changed or gone: categories only where violated)"
     ax.plot(station, terrain + required, color=palette.REQUIRED, linestyle=(0, (6, 3)), linewidth=1.2,
-            label="terrain + required clearance\n(crossing categories shown where violated)", gid="required")
+            label=label, gid="required")
 
 
 def _draw_unknown(ax, results, span_id, wire):

@@ -4,6 +4,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
+import functools
 import json
 
 import numpy as np
@@ -29,7 +30,7 @@ class Results:
         return self.layers[name]
 
     def raster_path(self, key: str) -> Path | None:
-        """The input raster named in run_info (``terrain``, ``surface``) if the file is still there."""
+        """The input file named in run_info (``terrain``, ``surface``, ``crossings``) if it is still there."""
         value = self.run_info.get(f"input.{key}")
         return Path(value) if value and Path(value).is_file() else None
 
@@ -38,6 +39,40 @@ class Results:
 
     def input_settings(self) -> dict:
         return json.loads(self.run_info.get("param.inputs", "{}"))
+
+    def unchanged_input(self, key: str) -> Path | None:
+        """The input file ``key`` when it is still there with the SHA-256 the run recorded, else None."""
+        path = self.raster_path(key)
+        recorded = self.run_info.get(f"input.{key}.sha256")
+        return path if path is not None and recorded and sha256_file(path) == recorded else None
+
+    @functools.cached_property
+    def crossing_areas(self):
+        """The run's crossing areas (category, required_m after the adder); "none" when the run had no crossings
+        file; None when they cannot be had.
+
+        They come from the crossings file and project file the run named, and only when both are unchanged
+        (same SHA-256): then the areas are exactly those the clearances were checked against.
+        """
+        if self.run_info.get("input.crossings") is None:
+            return "none"
+        project_file, crossings_file = self.unchanged_input("project"), self.unchanged_input("crossings")
+        if project_file is None or crossings_file is None:
+            return None
+        import pyproj
+
+        from routesag.errors import RoutesagError
+        from routesag.io.crossings import check_crossings, read_crossings_file
+        from routesag.project import load_project
+
+        try:
+            project = load_project(project_file)
+            raw = read_crossings_file(crossings_file, project.crossings_layer)
+            return check_crossings(raw, crossings_file, project.clearance, pyproj.CRS(self.run_info["note.crs"]),
+                                   project.structures_crs, layer=project.crossings_layer,
+                                   fields=project.settings.get("inputs", {}).get("fields"))
+        except (RoutesagError, KeyError):
+            return None
 
     def raster_note(self, key: str) -> str | None:
         """Why the ``key`` raster's ground line is missing or may not match the run, or None."""

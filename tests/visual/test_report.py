@@ -234,3 +234,34 @@ def test_overview_pages_a_long_line_and_draws_every_hotspot(demo_results, monkey
         drawn += [g for g in gids if g.startswith("hotspot:")]
         overview.plt.close(fig)
     assert sorted(drawn) == sorted(f"hotspot:{r}" for r in demo_results["hotspots"]["rank"])
+
+
+def _required_line(results, category):
+    violations = results["clearance_violations"]
+    worst = violations[violations["category"] == category].sort_values("deficit_m", ascending=False).iloc[0]
+    fig = draw_profile(results, str(worst["span_id"]))
+    lines = {line.get_gid(): line for line in fig.axes[0].get_lines()}
+    return worst, lines
+
+
+def test_required_line_follows_the_crossing_categories_of_the_run(demo_results):
+    # With the run's crossings file unchanged, the road's required value holds across the whole crossing,
+    # not only where the wire happens to violate it.
+    road, lines = _required_line(demo_results, "road")
+    station, terrain = lines["terrain"].get_data()
+    _, required = lines["required"].get_data()
+    above = required - terrain
+    road_m = road["required_m"]
+    assert above[int(np.argmin(np.abs(station - road["station_m"])))] == pytest.approx(road_m)
+    on_road = np.isclose(above, road_m)
+    assert on_road.sum() > road["end_m"] - road["start_m"] + 2  # stations are 1 m apart in the demo
+    assert "changed or gone" not in lines["required"].get_label()
+
+
+def test_required_line_says_so_when_the_crossings_file_changed(demo_gpkg, tmp_path):
+    copy = tmp_path / "copy.gpkg"
+    shutil.copy(demo_gpkg, copy)
+    with sqlite3.connect(copy) as con:
+        con.execute("UPDATE run_info SET value = 'ff' WHERE key = 'input.crossings.sha256'")
+    road, lines = _required_line(read_results(copy), "road")
+    assert "changed or gone" in lines["required"].get_label()
