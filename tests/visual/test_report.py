@@ -265,3 +265,16 @@ def test_required_line_says_so_when_the_crossings_file_changed(demo_gpkg, tmp_pa
         con.execute("UPDATE run_info SET value = 'ff' WHERE key = 'input.crossings.sha256'")
     road, lines = _required_line(read_results(copy), "road")
     assert "changed or gone" in lines["required"].get_label()
+
+
+def test_span_table_shows_as_found_tension_only_when_the_sections_carry_it(demo_gpkg, demo_report, tmp_path):
+    from routesag.visual.html import span_table
+
+    assert "as-found" not in demo_report.index.read_text()
+    copy = tmp_path / "copy.gpkg"
+    shutil.copy(demo_gpkg, copy)
+    with sqlite3.connect(copy) as con:
+        con.execute("ALTER TABLE sections ADD COLUMN as_found_tension_n REAL")
+        con.execute("UPDATE sections SET as_found_tension_n = 26500.0")
+    table = span_table(read_results(copy), {})
+    assert "as-found tension [kN]" in table and 'data-v="26.5"' in table
