@@ -33,8 +33,8 @@ figure img {{ max-width: 100%; height: auto; border: 1px solid #ddd; }}
   body {{ max-width: none; margin: 0; font-size: 10pt; }}
   th.sortable::after, .noprint {{ content: none; display: none; }}
   a {{ color: inherit; text-decoration: none; }}
-  figure, table, .caution {{ break-inside: avoid; }}
-  section.profiles figure {{ break-before: page; }}
+  figure, tr, .caution {{ break-inside: avoid; }}
+  h2, h3 {{ break-after: avoid; }}
   .status-violation {{ -webkit-print-color-adjust: exact; print-color-adjust: exact; }}
 }}
 """
