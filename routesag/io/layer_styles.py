@@ -146,7 +146,8 @@ def _qml_labels(root, field):
                   textColor="0,0,0,255", fontWeight="75" if field == "rank" else "50")
     ET.SubElement(settings, "text-buffer", bufferDraw="1", bufferSize="0.8", bufferSizeUnits="MM",
                   bufferColor="255,255,255,255")
-    ET.SubElement(settings, "placement", placement="1", dist="1.5", distUnits="MM")
+    # A hotspot's rank sits on its circle (1: over the point); a structure's id beside its marker (0: around it).
+    ET.SubElement(settings, "placement", placement="1" if field == "rank" else "0", dist="1.5", distUnits="MM")
 
 
 def qml(rules, label_field=None) -> str:
