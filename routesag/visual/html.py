@@ -153,6 +153,15 @@ def run_summary(results) -> str:
             f"{_pairs_table(tables.all_settings(results))}</details><h3>Warnings</h3>{warned}")
 
 
+def drawing_notes(results) -> list[str]:
+    """What the figures could not draw as the run saw it: rasters gone or changed, crossings not available."""
+    notes = [n for n in (results.raster_note("terrain"), results.raster_note("surface")) if n]
+    if results.crossing_areas is None:
+        notes.append("crossings or project file changed or gone: the required line shows crossing categories "
+                     "only where violated")
+    return notes
+
+
 def counts(results) -> str:
     violations, hotspots = results["clearance_violations"], results["hotspots"]
     unknown = results["unknown_stretches"]
@@ -184,6 +193,8 @@ def overview_section(overviews) -> str:
 
 def index_html(results, profiles: dict, overviews: list) -> str:
     title = escape(tables.description(results))
+    drawn = drawing_notes(results)
+    notes = ('<ul class="warnings">' + "".join(f"<li>{escape(n)}</li>" for n in drawn) + "</ul>") if drawn else ""
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
 <title>{title}</title><style>{STYLE}</style></head>
@@ -191,7 +202,7 @@ def index_html(results, profiles: dict, overviews: list) -> str:
 <h1>{title}</h1>
 <p>Clearance screening report from {escape(results.path.name)}.</p>
 <div class="caution" role="note"><strong>Caution.</strong> {escape(CAUTION)}</div>
-<section><h2>Result</h2>{counts(results)}</section>
+<section><h2>Result</h2>{counts(results)}{notes}</section>
 <section><h2>Hotspots</h2><p class="noprint">Click a column heading to sort.</p>{hotspot_table(results, profiles)}
 </section>
 <section><h2>Spans</h2>{span_table(results, profiles)}</section>

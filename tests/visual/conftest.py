@@ -1,25 +1,36 @@
-"""The demo run and its report, made once for the report and style tests (the demo is invented data)."""
+"""The demo, run once through `routesag demo` (GeoPackage and report beside it), for the report and style tests.
+
+The demo is invented data.
+"""
 from pathlib import Path
 
 import pytest
+from click.testing import CliRunner
 
-from routesag.cli.demo import sample_project
+from routesag.cli import main
+from routesag.visual.build import Report
 
 
 @pytest.fixture(scope="session")
-def demo_gpkg(tmp_path_factory) -> Path:
-    import routesag
-
+def demo_run(tmp_path_factory):
     out = tmp_path_factory.mktemp("demo") / "routesag-demo.gpkg"
-    routesag.run(sample_project(), out=out)
-    return out
+    result = CliRunner().invoke(main, ["demo", "--out", str(out)])
+    assert result.exit_code == 0, result.output
+    return out, result.output
 
 
 @pytest.fixture(scope="session")
-def demo_report(demo_gpkg, tmp_path_factory):
-    from routesag.visual.build import build_report
+def demo_gpkg(demo_run) -> Path:
+    return demo_run[0]
 
-    return build_report(demo_gpkg, tmp_path_factory.mktemp("report") / "report")
+
+@pytest.fixture(scope="session")
+def demo_report(demo_run) -> Report:
+    """The report `routesag demo` built beside its GeoPackage."""
+    gpkg, output = demo_run
+    folder = gpkg.with_name("routesag-demo-report")
+    assert f"report: {folder / 'index.html'}" in output
+    return Report(folder, folder / "index.html", {}, sorted(p.name for p in folder.glob("overview_*.png")))
 
 
 @pytest.fixture(scope="session")

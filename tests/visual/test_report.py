@@ -99,6 +99,7 @@ def test_html_tables_caution_and_summary(demo_report, demo_gpkg):
     page = parse(demo_report.index)
     text = " ".join(page.text)
     assert "screening aid" in text and "licensed engineer" in text and "EN 50341" in text
+    assert "changed or gone" not in text and "changed since the run" not in text  # the demo's inputs are there
     # One header row plus one row per hotspot and per span.
     assert page.rows["hotspots"] == 1 + len(layer(demo_gpkg, "hotspots"))
     assert page.rows["spans"] == 1 + len(layer(demo_gpkg, "spans"))
@@ -278,3 +279,15 @@ def test_span_table_shows_as_found_tension_only_when_the_sections_carry_it(demo_
         con.execute("UPDATE sections SET as_found_tension_n = 26500.0")
     table = span_table(read_results(copy), {})
     assert "as-found tension [kN]" in table and 'data-v="26.5"' in table
+
+
+def test_the_page_says_when_the_figures_lack_the_run_s_inputs(demo_gpkg, tmp_path):
+    from routesag.visual.html import index_html
+
+    copy = tmp_path / "copy.gpkg"
+    shutil.copy(demo_gpkg, copy)
+    with sqlite3.connect(copy) as con:
+        con.execute("UPDATE run_info SET value = ? WHERE key = 'input.terrain'", (str(tmp_path / "gone.tif"),))
+        con.execute("UPDATE run_info SET value = 'ff' WHERE key = 'input.project.sha256'")
+    page = index_html(read_results(copy), {}, [])
+    assert "gone.tif not found" in page and "only where violated" in page
