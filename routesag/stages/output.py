@@ -59,8 +59,7 @@ class WriteGeoPackage(Stage):
     name = "write_geopackage"
     requires = ("project", "layers")
     provides = ("geopackage",)
-    description = ("write every layer and the default layer styles to the output GeoPackage atomically "
-                   "(temp file, then rename)")
+    description = "write every layer to the output GeoPackage atomically (temp file, then rename)"
 
     def run(self, data, ctx):
         project = data["project"]

@@ -57,6 +57,16 @@ def layer(path, name):
     return pyogrio.read_dataframe(path, layer=name)
 
 
+def edited_copy(gpkg, tmp_path, *statements):
+    """A copy of the results file with SQL statements applied (a result whose inputs moved or changed), read back."""
+    copy = tmp_path / "copy.gpkg"
+    shutil.copy(gpkg, copy)
+    with sqlite3.connect(copy) as con:
+        for statement in statements:
+            con.execute(*(statement if isinstance(statement, tuple) else (statement,)))
+    return read_results(copy)
+
+
 def test_report_command_writes_every_expected_file(demo_gpkg, tmp_path):
     out = tmp_path / "rep"
     result = CliRunner().invoke(main, ["report", str(demo_gpkg), "--out", str(out)])
@@ -165,12 +175,8 @@ def test_profile_ground_and_required_line_match_the_run(demo_results):
 
 
 def test_missing_or_changed_terrain_is_said_on_the_figure(demo_gpkg, tmp_path):
-    copy = tmp_path / "copy.gpkg"
-    shutil.copy(demo_gpkg, copy)
-    with sqlite3.connect(copy) as con:
-        con.execute("UPDATE run_info SET value = ? WHERE key = 'input.terrain'", (str(tmp_path / "gone.tif"),))
-        con.execute("UPDATE run_info SET value = 'ff' WHERE key = 'input.surface.sha256'")
-    results = read_results(copy)
+    results = edited_copy(demo_gpkg, tmp_path, ("UPDATE run_info SET value = ? WHERE key = 'input.terrain'", (str(tmp_path / "gone.tif"),)),
+                          "UPDATE run_info SET value = 'ff' WHERE key = 'input.surface.sha256'")
     fig = draw_profile(results, _worst_span(results))
     gids = [line.get_gid() for line in fig.axes[0].get_lines()]
     assert "terrain" not in gids and "required" not in gids
@@ -260,11 +266,8 @@ def test_required_line_follows_the_crossing_categories_of_the_run(demo_results):
 
 
 def test_required_line_says_so_when_the_crossings_file_changed(demo_gpkg, tmp_path):
-    copy = tmp_path / "copy.gpkg"
-    shutil.copy(demo_gpkg, copy)
-    with sqlite3.connect(copy) as con:
-        con.execute("UPDATE run_info SET value = 'ff' WHERE key = 'input.crossings.sha256'")
-    road, lines = _required_line(read_results(copy), "road")
+    changed = edited_copy(demo_gpkg, tmp_path, "UPDATE run_info SET value = 'ff' WHERE key = 'input.crossings.sha256'")
+    road, lines = _required_line(changed, "road")
     assert "changed or gone" in lines["required"].get_label()
 
 
@@ -272,22 +275,14 @@ def test_span_table_shows_as_found_tension_only_when_the_sections_carry_it(demo_
     from routesag.visual.html import span_table
 
     assert "as-found" not in demo_report.index.read_text()
-    copy = tmp_path / "copy.gpkg"
-    shutil.copy(demo_gpkg, copy)
-    with sqlite3.connect(copy) as con:
-        con.execute("ALTER TABLE sections ADD COLUMN as_found_tension_n REAL")
-        con.execute("UPDATE sections SET as_found_tension_n = 26500.0")
-    table = span_table(read_results(copy), {})
+    table = span_table(edited_copy(demo_gpkg, tmp_path, "ALTER TABLE sections ADD COLUMN as_found_tension_n REAL",
+                                   "UPDATE sections SET as_found_tension_n = 26500.0"), {})
     assert "as-found tension [kN]" in table and 'data-v="26.5"' in table
 
 
 def test_the_page_says_when_the_figures_lack_the_run_s_inputs(demo_gpkg, tmp_path):
     from routesag.visual.html import index_html
 
-    copy = tmp_path / "copy.gpkg"
-    shutil.copy(demo_gpkg, copy)
-    with sqlite3.connect(copy) as con:
-        con.execute("UPDATE run_info SET value = ? WHERE key = 'input.terrain'", (str(tmp_path / "gone.tif"),))
-        con.execute("UPDATE run_info SET value = 'ff' WHERE key = 'input.project.sha256'")
-    page = index_html(read_results(copy), {}, [])
+    page = index_html(edited_copy(demo_gpkg, tmp_path, ("UPDATE run_info SET value = ? WHERE key = 'input.terrain'", (str(tmp_path / "gone.tif"),)),
+                                  "UPDATE run_info SET value = 'ff' WHERE key = 'input.project.sha256'"), {}, [])
     assert "gone.tif not found" in page and "only where violated" in page
