@@ -43,6 +43,7 @@ def draw_profile(results: Results, span_id: str):
         _draw_required(ax, results, span_id, wire, *ground)
     _draw_unknown(ax, results, span_id, wire)
     _draw_violations(ax, results, span_id, wire)
+    _draw_hotspots(ax, results, span_id, wire)
     _draw_structures(ax, results, span)
     _finish_axes(ax, span, wire)
     return fig
@@ -129,6 +130,17 @@ def _draw_violations(ax, results, span_id, wire):
                     (worst["station_m"], worst["conductor_z_m"]), xytext=(12, 24), textcoords="offset points",
                     fontsize=9, color="black", arrowprops={"arrowstyle": "-", "color": "black"},
                     bbox={"boxstyle": "round", "fc": "white", "ec": palette.VIOLATION})
+
+
+def _draw_hotspots(ax, results, span_id, wire):
+    """The rank of each hotspot governed on this wire, as on the plan overview and in the report's table."""
+    hotspots = results["hotspots"]
+    mine = hotspots[(hotspots["span_id"].astype(str) == span_id) & (hotspots["wire"].astype(str) == wire)]
+    for _, h in mine.iterrows():
+        ax.annotate(f"hotspot #{int(h['rank'])}", (h["station_m"], h.geometry.z), xytext=(0, -28),
+                    textcoords="offset points", ha="center", fontsize=9, fontweight="bold", color="black",
+                    bbox={"boxstyle": "round", "fc": "white", "ec": palette.deficit_colour(h["deficit_m"]), "lw": 2},
+                    gid=f"hotspot:{int(h['rank'])}")
 
 
 def _draw_structures(ax, results, span):

@@ -156,6 +156,10 @@ def test_profile_has_a_line_per_case_the_required_line_and_a_marker_per_violatio
     assert len(markers) == len(mine)
     assert all(m.get_color() == palette.VIOLATION for m in markers)
     assert "vertical exaggeration" in fig.axes[0].get_title()
+    hotspots = demo_results["hotspots"]
+    ranks = hotspots[(hotspots["span_id"] == span_id) & (hotspots["wire"] == worst_wire)]["rank"]
+    assert len(ranks) and sorted(t.get_gid() for t in fig.axes[0].texts if (t.get_gid() or "").startswith(
+        "hotspot:")) == sorted(f"hotspot:{r}" for r in ranks)
     assert any("deficit" in t.get_text() for t in fig.axes[0].texts)
 
 
