@@ -135,7 +135,9 @@ def _draw_violations(ax, results, span_id, wire):
 def _draw_hotspots(ax, results, span_id, wire):
     """The rank of each hotspot governed on this wire, as on the plan overview and in the report's table."""
     hotspots = results["hotspots"]
-    mine = hotspots[(hotspots["span_id"].astype(str) == span_id) & (hotspots["wire"].astype(str) == wire)]
+    mine = hotspots[hotspots["span_id"].astype(str) == span_id]
+    if "wire" in mine:
+        mine = mine[mine["wire"].astype(str) == wire]
     for _, h in mine.iterrows():
         ax.annotate(f"hotspot #{int(h['rank'])}", (h["station_m"], h.geometry.z), xytext=(0, -28),
                     textcoords="offset points", ha="center", fontsize=9, fontweight="bold", color="black",
