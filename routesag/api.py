@@ -135,8 +135,19 @@ def run_project(project: Project, engine, progress=None, on_section=None, remove
                            data.get("geopackage"))
     if read_back:
         layers.read_all()
+    build_configured_report(project, data.get("geopackage"))
     return RunResult(layers=layers, path=data.get("geopackage"), project=project,
                      warnings=ctx.warnings, notes=ctx.notes)
+
+
+def build_configured_report(project: Project, geopackage) -> None:
+    """The HTML report of ``[report] dir`` (relative to the project file), when set, from the written file."""
+    settings = project.settings.get("report", {})
+    if geopackage is None or not settings.get("dir"):
+        return
+    from routesag.visual.build import build_report
+
+    build_report(geopackage, project.path.parent / settings["dir"], all_spans=settings.get("all_spans", False))
 
 
 def compute(project_path, targets, progress=None) -> dict:

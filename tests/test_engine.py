@@ -35,7 +35,10 @@ def gpkg_tables(path) -> dict[str, list[tuple]]:
     with sqlite3.connect(path) as db:
         names = [n for (n,) in db.execute("SELECT table_name FROM gpkg_contents ORDER BY table_name")]
         tables = {n: db.execute(f'SELECT * FROM "{n}" ORDER BY rowid').fetchall() for n in names}
+        styles_time = [d[1] for d in db.execute("PRAGMA table_info(layer_styles)")].index("update_time")
     tables["run_info"] = [row[1:] for row in tables["run_info"] if row[1] not in RUN_INFO_VARYING]
+    # when the styles were written, not what they are
+    tables["layer_styles"] = [row[:styles_time] + row[styles_time + 1:] for row in tables["layer_styles"]]
     return tables
 
 

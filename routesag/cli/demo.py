@@ -32,11 +32,21 @@ def sample_project() -> Path:
 @units_option
 @handle_errors
 def demo_command(out, fail_on_violation, all_violations, units):
-    """Run the bundled sample survey and write routesag-demo.gpkg here."""
+    """Run the bundled sample survey; write routesag-demo.gpkg and its report folder here."""
     from routesag.api import run
+
+    from routesag.visual.build import build_report
 
     project = sample_project()
     if not is_quiet():
         click.echo(f"sample survey: {project.parent}")
-    finish(run(project, out=Path(out).resolve()), fail_on_violation, per_span=True, all_violations=all_violations,
-           units=units)
+    result = run(project, out=Path(out).resolve())
+    report = build_report(result.path, report_folder(result.path))
+    if not is_quiet():
+        click.echo(f"report: {report.index}")
+    finish(result, fail_on_violation, per_span=True, all_violations=all_violations, units=units)
+
+
+def report_folder(geopackage: Path) -> Path:
+    """The demo's report folder, beside its GeoPackage: ``routesag-demo.gpkg`` -> ``routesag-demo-report/``."""
+    return geopackage.with_name(f"{geopackage.stem}-report")

@@ -22,7 +22,7 @@ from routesag.io.outputs_guard import check_output_target, keep_mode, temporary_
 _SQLITE_SIDECARS = ("-journal", "-wal", "-shm")
 
 
-def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION):
+def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION, finalize=None):
     """Write several layers to one GeoPackage atomically.
 
     Parameters
@@ -41,6 +41,9 @@ def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION):
         Files that must never be overwritten (the run's inputs).
     version : str
         GeoPackage version the file declares (see :mod:`routesag.io.gpkg_version`).
+    finalize : callable, optional
+        Called with the temporary file's path after the layers are written and before the rename
+        (layer styles are added this way), so it lands atomically with them.
 
     Raises
     ------
@@ -69,7 +72,7 @@ def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION):
     with GeoPackageWriter(destination, protect=protect, version=version) as writer:
         for name, frame, geometry_type in prepared:
             writer.write(name, frame, geometry_type)
-        writer.commit()
+        writer.commit(finalize)
 
 
 class GeoPackageWriter:

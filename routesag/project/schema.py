@@ -303,6 +303,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
     "report": {
         "units": Key(str, "si", one_of("si", "imperial"),
                      "units shown in the summary and sag tables besides SI (files stay SI)"),
+        "dir": Key(str, None, doc="folder (beside the project file) for an HTML report built with every run"),
+        "title": Key(str, None, doc="the job's one-line description at the top of the report"),
+        "all_spans": Key(bool, False, doc="draw a profile for every span, not only those with findings"),
     },
     "pipeline": {
         "stages": Key(list, [], list_of_text, doc="stages to add to (or replace in) the built-in chain"),

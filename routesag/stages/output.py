@@ -15,6 +15,7 @@ from routesag import __version__
 from routesag.io.gpkg import GeoPackageWriter, write_layers
 from routesag.io.gpkg_version import DEFAULT_VERSION
 from routesag.io.hashing import input_sha256
+from routesag.io.layer_styles import write_layer_styles
 from routesag.pipeline import Stage
 from routesag.profiles import Profiles
 from routesag.stages.tidy import only_wire, tidy_layers
@@ -98,7 +99,7 @@ class LayerStream:
         for name, (frame, geometry) in layers.items():
             if name not in self.writer.layers:
                 self.writer.write(name, frame, geometry)
-        self.writer.commit()
+        self.writer.commit(finalize=write_layer_styles)
 
     def close(self) -> None:
         self.writer.discard()
@@ -176,7 +177,7 @@ class WriteGeoPackage(Stage):
         stream = data.get("output_stream")
         if stream is None:
             write_layers(project.output_path, layers, protect=tuple(project.input_paths().values()),
-                         version=gpkg_version(project))
+                         version=gpkg_version(project), finalize=write_layer_styles)
         else:
             stream.finish(layers)
         return {"geopackage": project.output_path}

@@ -24,8 +24,15 @@ def pages(results):
             yield line_id, group.iloc[start:start + SPANS_PER_PAGE]
 
 
+def figure_size(spans) -> tuple[float, float]:
+    """Width fixed for the page [in]; height follows the plan's shape so a long, flat line leaves no empty band."""
+    xy = np.vstack([np.asarray(g.coords)[:, :2] for g in spans.geometry])
+    dx, dy = np.ptp(xy[:, 0]), np.ptp(xy[:, 1])
+    return 11.0, float(np.clip(11.0 * dy / max(dx, 1.0) + 2.0, 4.5, 8.5))
+
+
 def draw_overview(results, line_id, spans):
-    fig, ax = plt.subplots(figsize=(11.0, 7.0), layout="constrained")
+    fig, ax = plt.subplots(figsize=figure_size(spans), layout="constrained")
     sections = list(dict.fromkeys(spans["section_id"].astype(str)))
     for k, section in enumerate(sections):
         mine = spans[spans["section_id"].astype(str) == section]
@@ -46,6 +53,7 @@ def draw_overview(results, line_id, spans):
     _draw_hotspots(ax, results, set(spans["span_id"].astype(str)))
     ax.set_aspect("equal", adjustable="datalim")
     ax.margins(0.08)
+    fig.canvas.draw()  # settle the limits the equal aspect sets before sizing the scale bar
     _scale_bar(ax)
     _north_arrow(ax)
     ax.set_xlabel("easting [m]")
@@ -60,12 +68,14 @@ def draw_overview(results, line_id, spans):
 def _draw_hotspots(ax, results, span_ids):
     hotspots = results["hotspots"]
     mine = hotspots[hotspots["span_id"].astype(str).isin(span_ids)]
+    # Hotspots close together would print their labels on top of each other: fan the offsets out.
+    offsets = [(12, 10), (12, -26), (-80, 10), (-80, -26)]
     for k, (_, h) in enumerate(mine.sort_values("rank").iterrows()):
         ax.plot(h.geometry.x, h.geometry.y, marker="o", markersize=16, linestyle="none",
                 color=palette.deficit_colour(h["deficit_m"]), markeredgecolor="black", alpha=0.9,
                 label="hotspot (rank, deficit)" if k == 0 else None, gid=f"hotspot:{h['rank']}")
         ax.annotate(f"#{int(h['rank'])}  {h['deficit_m']:.2f} m", (h.geometry.x, h.geometry.y),
-                    xytext=(10, 8), textcoords="offset points", fontsize=10, fontweight="bold",
+                    xytext=offsets[k % len(offsets)], textcoords="offset points", fontsize=10, fontweight="bold",
                     bbox={"boxstyle": "round", "fc": "white", "ec": "black", "alpha": 0.85})
 
 
@@ -75,7 +85,7 @@ def _scale_bar(ax):
     raw = (x1 - x0) / 5.0
     length = 10 ** np.floor(np.log10(raw))
     length = max(m * length for m in (1, 2, 5) if m * length <= raw)
-    xs, ys = x0 + 0.05 * (x1 - x0), y0 + 0.05 * (y1 - y0)
+    xs, ys = x1 - 0.05 * (x1 - x0) - length, y0 + 0.05 * (y1 - y0)
     ax.plot([xs, xs + length], [ys, ys], color="black", linewidth=4, solid_capstyle="butt", gid="scale_bar")
     ax.text(xs + length / 2, ys + 0.015 * (y1 - y0), f"{length:g} m", ha="center", va="bottom", fontsize=9)
 

@@ -43,49 +43,68 @@ def draw_profile(results: Results, span_id: str):
         _draw_required(ax, results, span_id, wire, *ground)
     _draw_unknown(ax, results, span_id, wire)
     _draw_violations(ax, results, span_id, wire)
+    _draw_hotspots(ax, results, span_id, wire)
     _draw_structures(ax, results, span)
     _finish_axes(ax, span, wire)
     return fig
 
 
 def _draw_ground(ax, results, span, rows):
-    """Terrain (and surface) under the wire's first load case, from the rasters if still present."""
+    """Terrain (and surface objects) under the wire's first load case, from the rasters if still present."""
     xyz = wire_coords(rows.iloc[0].geometry)
-    terrain = sample_raster(results.raster_path("terrain"), xyz[:, :2])
+    notes = [n for n in (results.raster_note("terrain"), results.raster_note("surface")) if n]
+    if notes:
+        ax.text(0.01, 0.02, "\n".join(notes), transform=ax.transAxes, fontsize=9, color=palette.VIOLATION,
+                gid="raster_note")
+    terrain = sample_raster(results, "terrain", xyz[:, :2])
     if terrain is None:
-        ax.text(0.01, 0.02, "terrain raster not found: ground line not drawn", transform=ax.transAxes,
-                fontsize=9, color=palette.VIOLATION)
         return None
     station = stations_along(span, xyz)
-    surface = sample_raster(results.raster_path("surface"), xyz[:, :2])
+    surface = sample_raster(results, "surface", xyz[:, :2])
     if surface is not None:
-        values = json.loads(results.run_info.get("param.inputs", "{}")).get("surface_values", "elevation")
-        top = terrain + surface if values == "height" else surface
-        raised = np.where(top > terrain + 0.5, top, np.nan)
-        ax.fill_between(station, terrain, raised, where=np.isfinite(raised), color=palette.SURFACE, alpha=0.8,
-                        label="surface objects", gid="surface")
+        top = terrain + surface if results.input_settings().get("surface_values") == "height" else surface
+        # The run's own threshold for what counts as an object above the terrain.
+        min_height_m = json.loads(results.run_info.get("param.clearance", "{}")).get("surface_min_height_m", 0.5)
+        raised = np.where(top > terrain + min_height_m, top, np.nan)
+        if np.isfinite(raised).any():
+            ax.fill_between(station, terrain, raised, where=np.isfinite(raised), color=palette.SURFACE,
+                            alpha=0.8, label="surface objects", gid="surface")
     base = np.nanmin(terrain) - 5.0 if np.isfinite(terrain).any() else 0.0
     ax.fill_between(station, base, terrain, color=palette.TERRAIN, alpha=0.35, linewidth=0)
     ax.plot(station, terrain, color=palette.TERRAIN, linewidth=1.2, label="terrain", gid="terrain")
-    return station, terrain
+    return station, terrain, xyz[:, :2]
 
 
-def _required_by_station(results, span_id, wire, station):
-    """Required clearance [m] per station: the ground rule, the violated category inside each violation."""
+def _required_by_station(results, span_id, wire, station, xy):
+    """Required clearance [m] per station and whether it is known by category all along the span.
+
+    With the run's crossing areas (unchanged inputs) every station gets its category's value, as the run
+    classified it; without them, the ground rule, and each violation's own category inside that violation.
+    """
+    from routesag.stages.crossings import classify_points
+
+    # run_info records the required values after the voltage adder: add nothing here.
     rules = json.loads(results.run_info.get("note.clearance_required_m", "{}"))
-    adder = json.loads(results.run_info.get("note.clearance_adder", "{}")).get("adder_m") or 0.0
-    required = np.full(len(station), rules.get("ground", np.nan) + adder)
+    ground_m = rules.get("ground", np.nan)
+    areas = results.crossing_areas
+    if areas is not None and not isinstance(areas, str):
+        return classify_points(xy, areas, ground_m)[0], True
+    required = np.full(len(station), ground_m)
+    if isinstance(areas, str):  # the run had no crossings: the ground rule holds everywhere
+        return required, True
     found = span_violations(results, span_id)
     for _, v in found[(found["wire"].astype(str) == wire) & (found["category"] != "surface")].iterrows():
         inside = (station >= v["start_m"]) & (station <= v["end_m"])
         required[inside] = v["required_m"]
-    return required
+    return required, False
 
 
-def _draw_required(ax, results, span_id, wire, station, terrain):
-    required = _required_by_station(results, span_id, wire, station)
+def _draw_required(ax, results, span_id, wire, station, terrain, xy):
+    required, complete = _required_by_station(results, span_id, wire, station, xy)
+    label = "terrain + required clearance" if complete else \
+        "terrain + required clearance\n(crossings file changed or gone: categories only where violated)"
     ax.plot(station, terrain + required, color=palette.REQUIRED, linestyle=(0, (6, 3)), linewidth=1.2,
-            label="terrain + required clearance", gid="required")
+            label=label, gid="required")
 
 
 def _draw_unknown(ax, results, span_id, wire):
@@ -113,6 +132,19 @@ def _draw_violations(ax, results, span_id, wire):
                     bbox={"boxstyle": "round", "fc": "white", "ec": palette.VIOLATION})
 
 
+def _draw_hotspots(ax, results, span_id, wire):
+    """The rank of each hotspot governed on this wire, as on the plan overview and in the report's table."""
+    hotspots = results["hotspots"]
+    mine = hotspots[hotspots["span_id"].astype(str) == span_id]
+    if "wire" in mine:
+        mine = mine[mine["wire"].astype(str) == wire]
+    for _, h in mine.iterrows():
+        ax.annotate(f"hotspot #{int(h['rank'])}", (h["station_m"], h.geometry.z), xytext=(0, -28),
+                    textcoords="offset points", ha="center", fontsize=9, fontweight="bold", color="black",
+                    bbox={"boxstyle": "round", "fc": "white", "ec": palette.deficit_colour(h["deficit_m"]), "lw": 2},
+                    gid=f"hotspot:{int(h['rank'])}")
+
+
 def _draw_structures(ax, results, span):
     structures = results["structures"]
     line = structures[structures["line_id"].astype(str) == str(span["line_id"])]
@@ -127,7 +159,7 @@ def _draw_structures(ax, results, span):
 def _finish_axes(ax, span, wire):
     ax.set_xlabel("distance along span from the first structure [m]")
     ax.set_ylabel("elevation [m]")
-    ax.margins(x=0.03, y=0.12)
+    ax.margins(x=0.03, y=0.2)  # room above the structures for their labels
     ax.grid(True, color="#dddddd", linewidth=0.6)
     ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.14), ncol=4, fontsize=9, frameon=False)
     ax.figure.canvas.draw()
