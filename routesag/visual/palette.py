@@ -17,6 +17,8 @@ VIOLATION = OKABE_ITO["vermillion"]
 REQUIRED = OKABE_ITO["black"]
 TERRAIN = "#7f6a4d"
 SURFACE = "#9bbf8a"
+#: Point-cloud objects (vegetation, buildings): darker than the surface-model fill and drawn as edged markers.
+CLOUD_OBJECT = OKABE_ITO["bluish_green"]
 UNKNOWN = "#bbbbbb"
 STRUCTURE = OKABE_ITO["black"]
 SPAN = "#555555"

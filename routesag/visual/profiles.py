@@ -43,6 +43,7 @@ def draw_profile(results: Results, span_id: str):
         _draw_required(ax, results, span_id, wire, *ground)
     _draw_unknown(ax, results, span_id, wire)
     _draw_violations(ax, results, span_id, wire)
+    _draw_cloud_objects(ax, results, span, wire)
     _draw_hotspots(ax, results, span_id, wire)
     _draw_structures(ax, results, span)
     _finish_axes(ax, span, wire)
@@ -130,6 +131,35 @@ def _draw_violations(ax, results, span_id, wire):
                     (worst["station_m"], worst["conductor_z_m"]), xytext=(12, 24), textcoords="offset points",
                     fontsize=9, color="black", arrowprops={"arrowstyle": "-", "color": "black"},
                     bbox={"boxstyle": "round", "fc": "white", "ec": palette.VIOLATION})
+
+
+#: Point-cloud categories whose violations carry the offending point, and the marker of each.
+CLOUD_MARKERS = {"vegetation": "o", "building": "s"}
+
+
+def _draw_cloud_objects(ax, results, span, wire):
+    """Each point-cloud violation's offending point, and a dashed link from the wire point it was measured from.
+
+    The check is a 3D distance, so the point may lie off the chord: it is drawn at its projection onto the chord.
+    """
+    found = span_violations(results, span["span_id"])
+    if "surface_x" not in found:
+        return
+    found = found[(found["wire"].astype(str) == wire) & found["category"].isin(list(CLOUD_MARKERS))
+                  & found["surface_x"].notna()]
+    if not len(found):
+        return
+    station = stations_along(span, found[["surface_x", "surface_y"]].to_numpy(dtype=float))
+    labelled = set()
+    for at, (_, v) in zip(station, found.iterrows(), strict=True):
+        ax.plot([v["station_m"], at], [v["conductor_z_m"], v["surface_z"]], color=palette.CLOUD_OBJECT,
+                linestyle=(0, (3, 2)), linewidth=1.0, gid="cloud_link",
+                label=None if "link" in labelled else "wire point to point-cloud object (3D distance)")
+        labelled.add("link")
+        ax.plot([at], [v["surface_z"]], marker=CLOUD_MARKERS[v["category"]], markersize=7, linestyle="none",
+                color=palette.CLOUD_OBJECT, markeredgecolor="black", gid="cloud_object",
+                label=None if v["category"] in labelled else f"point-cloud {v['category']}")
+        labelled.add(v["category"])
 
 
 def _draw_hotspots(ax, results, span_id, wire):
