@@ -1,8 +1,10 @@
 """The survey conductor temperature given by the flight's line current (heat balance) or per span."""
 import numpy as np
 import pytest
+from click.testing import CliRunner
 
 import routesag
+from routesag.cli import main
 from routesag.errors import ProjectError
 from routesag.physics.thermal import ThermalConductor, Weather, conductor_temperature_c
 from tests.cloud_survey import SURVEY_C, cloud_project, wire_points, write_las
@@ -46,8 +48,15 @@ def test_a_survey_by_current_equals_the_survey_at_its_heat_balance_temperature(t
 
 
 def test_temperature_and_current_together_are_refused_naming_survey(tmp_path):
+    project = survey_project(tmp_path, SURVEY_WEATHER)
+    project.write_text(project.read_text().replace(SURVEY_WEATHER, f"conductor_temperature_c = 25.0\n"
+                                                                   f"{SURVEY_WEATHER}"))
     with pytest.raises(ProjectError, match=r"\[survey\]: give conductor_temperature_c or current_a"):
-        routesag.run(survey_project(tmp_path, f"conductor_temperature_c = 25.0\n{SURVEY_WEATHER}"))
+        routesag.run(project)
+    result = CliRunner().invoke(main, ["run", str(project)])
+    assert result.exit_code == 2 and "[survey]: give conductor_temperature_c or current_a" in result.output
+    assert "Traceback" not in result.output
+    assert not (tmp_path / "out.gpkg").exists()
 
 
 def test_a_current_on_a_conductor_without_resistances_names_the_wire(tmp_path):
