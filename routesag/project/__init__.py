@@ -14,7 +14,7 @@ from pathlib import Path
 from routesag.errors import ProjectError
 from routesag.physics.thermal import Weather
 from routesag.project.model import (
-    ClearanceRules, Conductor, LoadCase, PointCloudSettings, Project, Stringing, TensionLimit, Wire,
+    DEFAULT_WIRE, ClearanceRules, Conductor, LoadCase, PointCloudSettings, Project, Stringing, TensionLimit, Wire,
 )
 from routesag.project.schema import MAX_ATTACH_HEIGHT_M, REQUIRED, SCHEMA, TENSION_KEYS, Key
 from routesag.project.validation import _conductor_from, _wire_label, resolve_conductor, validate_settings
@@ -97,7 +97,7 @@ def _build_project(path: Path, s: dict, output) -> Project:
         crossings_layer=inputs["crossings_layer"],
         surface_path=None if inputs["surface"] is None else (base / inputs["surface"]).resolve(),
         surface_values=inputs["surface_values"], clearance=_clearance_rules(s["clearance"]),
-        point_cloud=_point_cloud_settings(base, s))
+        point_cloud=_point_cloud_settings(path, s, wires or [Wire(DEFAULT_WIRE, conductor, stringing)]))
 
 
 def _weather(case: dict) -> Weather | None:
@@ -138,17 +138,28 @@ def _build_wire(path: Path, index: int, entry: dict, conductor: Conductor, strin
         stringing=stringing if entry["stringing"] is None else Stringing(**entry["stringing"]))
 
 
-def _point_cloud_settings(base: Path, s: dict) -> PointCloudSettings | None:
-    inputs, cloud, survey = s["inputs"], s["point_cloud"], s["survey"]
+def _point_cloud_settings(path: Path, s: dict, wires: list[Wire]) -> PointCloudSettings | None:
+    base, inputs, cloud, survey = path.parent, s["inputs"], s["point_cloud"], s["survey"]
     if inputs["point_cloud"] is None:
         return None
+    current = None
+    if survey["current_a"] is not None:
+        current = LoadCase(name="[survey]", temperature_c=None, current_a=survey["current_a"],
+                           weather=_weather(survey))
+        lacking = [w.name for w in wires if w.conductor.thermal() is None and w.name not in
+                   survey["wire_temperature_c"]]
+        if lacking:
+            raise ProjectError(f"project file {path}: [survey] current_a needs the AC resistances "
+                               f"(resistance_25c_ohm_km and resistance_75c_ohm_km) of the conductor of wire(s) "
+                               f"{', '.join(map(repr, lacking))}")
     return PointCloudSettings(
         path=(base / inputs["point_cloud"]).resolve(), layer=inputs["point_cloud_layer"],
         crs=inputs["point_cloud_crs"], corridor_m=cloud["corridor_m"], wire_classes=tuple(cloud["wire_classes"]),
         surface_classes=tuple(cloud["surface_classes"]), structure_gap_m=cloud["structure_gap_m"],
         wire_search_m=cloud["wire_search_m"], fit_attachments=cloud["fit_attachments"],
         write_points=cloud["write_points"], survey_temperature_c=survey["conductor_temperature_c"],
-        wire_temperature_c=dict(survey["wire_temperature_c"]))
+        wire_temperature_c=dict(survey["wire_temperature_c"]), survey_current=current,
+        span_temperature_c={str(k): v for k, v in survey["span_temperature_c"].items()})
 
 
 def _clearance_rules(c: dict) -> ClearanceRules:

@@ -234,10 +234,17 @@ class PointCloudSettings:
     write_points: bool = False
     survey_temperature_c: float | None = None
     wire_temperature_c: dict = field(default_factory=dict)
+    survey_current: LoadCase | None = None      # [survey] current_a and weather, as a heat balance case
+    span_temperature_c: dict = field(default_factory=dict)
 
-    def temperature_of(self, wire: str) -> float | None:
-        """Survey conductor temperature of a wire: its own, else the line's [degC] (None: not given)."""
-        return self.wire_temperature_c.get(wire, self.survey_temperature_c)
+    def temperature_of(self, wire: str, conductor: Conductor | None = None, span_id=None) -> float | None:
+        """Survey conductor temperature of a wire [degC] (None: not given): the span's own, else the
+        wire's, else the line's, else from [survey] current_a by the heat balance of ``conductor``."""
+        if span_id is not None and str(span_id) in self.span_temperature_c:
+            return self.span_temperature_c[str(span_id)]
+        if wire in self.wire_temperature_c or self.survey_current is None or conductor is None:
+            return self.wire_temperature_c.get(wire, self.survey_temperature_c)
+        return self.survey_current.conductor_temperature_c(conductor)
 
 
 @dataclass

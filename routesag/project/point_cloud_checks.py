@@ -30,9 +30,10 @@ def check_point_cloud(source: str, raw: dict, settings: dict, problems: list[str
         if not has_cloud:
             problems.append(f"{source}: {label}: source = 'as_found' needs [inputs] point_cloud "
                             "(the fitted wires give the as-found state)")
-        elif survey.get("conductor_temperature_c") is None and wire_name not in own_temperatures:
+        elif survey.get("conductor_temperature_c") is None and survey.get("current_a") is None \
+                and wire_name not in own_temperatures:
             problems.append(f"{source}: {label}: source = 'as_found' needs [survey] conductor_temperature_c "
-                            "(the conductor temperature during the survey) [degC]")
+                            "(the conductor temperature during the survey) [degC] or current_a [A]")
 
 
 def _stringings(settings: dict):

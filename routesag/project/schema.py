@@ -294,6 +294,14 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "wire_temperature_c": Key(dict, {}, doc="a wire's own survey temperature: wire name = degC", table={},
                                   other=Key(NUMBER, check=above_absolute_zero,
                                             doc="survey conductor temperature of that wire [degC]")),
+        "span_temperature_c": Key(dict, {}, doc="a span's own survey temperature: span id = degC (overrides "
+                                                "the others for that span)", table={},
+                                  other=Key(NUMBER, check=above_absolute_zero,
+                                            doc="survey conductor temperature in that span [degC]")),
+        **WEATHER_KEYS,
+        "current_a": Key(NUMBER, None, non_negative, "line current during the flight; the survey temperature "
+                                                      "follows from the heat balance (instead of "
+                                                      "conductor_temperature_c) [A]"),
     },
     "output": {
         "path": Key(str, "results.gpkg", doc="GeoPackage to write"),

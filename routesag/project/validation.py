@@ -54,6 +54,7 @@ def validate_settings(raw: dict, source: str = "project") -> tuple[dict, list[st
     _check_limits(source, settings, problems)
     _check_clearance(source, raw.get("clearance"), settings, problems)
     check_point_cloud(source, raw, settings, problems)
+    _check_survey_temperature(source, settings.get("survey", {}), problems)
     return settings, problems
 
 
@@ -338,14 +339,28 @@ def _check_case_temperatures(source, cases: list[dict], problems) -> None:
                 problems.append(f"{where}: {', '.join(extra)} only serve current_a; remove them or give "
                                 f"current_a instead of temperature_c")
             continue
-        missing = [k for k in ("ambient_c", "wind_speed_m_s") if case.get(k) is None]
-        sun = [k for k in SUN_POSITION if case.get(k) is not None]
-        if case.get("solar_flux_w_m2") is None and len(sun) != len(SUN_POSITION):
-            missing.append("solar_flux_w_m2 or all of " + ", ".join(SUN_POSITION))
-        elif case.get("solar_flux_w_m2") is not None and sun:
-            problems.append(f"{where}: give solar_flux_w_m2 or the sun's position ({', '.join(sun)}), not both")
-        if missing:
-            problems.append(f"{where}: current_a needs {', '.join(missing)}")
+        _check_weather(where, case, problems)
+
+
+def _check_weather(where: str, entry: dict, problems) -> None:
+    """A table given by current_a (a load case, or [survey]) needs the heat balance's weather."""
+    missing = [k for k in ("ambient_c", "wind_speed_m_s") if entry.get(k) is None]
+    sun = [k for k in SUN_POSITION if entry.get(k) is not None]
+    if entry.get("solar_flux_w_m2") is None and len(sun) != len(SUN_POSITION):
+        missing.append("solar_flux_w_m2 or all of " + ", ".join(SUN_POSITION))
+    elif entry.get("solar_flux_w_m2") is not None and sun:
+        problems.append(f"{where}: give solar_flux_w_m2 or the sun's position ({', '.join(sun)}), not both")
+    if missing:
+        problems.append(f"{where}: current_a needs {', '.join(missing)}")
+
+
+def _check_survey_temperature(source, survey: dict, problems) -> None:
+    """[survey] gives the flight's conductor temperature directly or by its line current, not both."""
+    if survey.get("conductor_temperature_c") is not None and survey.get("current_a") is not None:
+        problems.append(f"{source}: [survey]: give conductor_temperature_c or current_a (the line current "
+                        "during the flight, with its weather), not both")
+    elif survey.get("current_a") is not None:
+        _check_weather(f"{source}: [survey]", survey, problems)
 
 
 def _set_conditions(source, settings: dict, problems) -> None:

@@ -17,6 +17,7 @@ import numpy as np
 import pandas as pd
 import shapely
 
+from routesag.errors import ProjectError
 from routesag.io.pointcloud import chord_corridor, read_points
 from routesag.io.terrain import Z_UNIT_FACTORS
 from routesag.physics.loads import bare_weight_n_m, conductor_load
@@ -126,26 +127,29 @@ class FitWires(Stage):
         search = search_distances(wire_spans, data["attachments"], settings.wire_search_m)
         sections = data["sections"].set_index("section_id", drop=False)
         fits, states, point_rows, ordered = [], [], [], []
+        check_span_temperatures(settings, wire_spans)
         for section_id, rows in wire_spans.groupby("section_id", sort=False):
-            weights = {w.name: float(bare_weight_n_m(w.conductor.mass_kg_m))
-                       for w in project.line_wires(rows["line_id"].iloc[0])}
+            line_wires = {w.name: w for w in project.line_wires(rows["line_id"].iloc[0])}
+            weights = {name: float(bare_weight_n_m(w.conductor.mass_kg_m)) for name, w in line_wires.items()}
             rows = with_prior(project, sections.loc[section_id], rows.reset_index(drop=True))
             ordered.append(rows)
             row_search = search[section_id]
             near = near_rows(rows, x, y, float(np.max(row_search)))  # one pass over the line's points
             frame, curves, _ = fit_section(rows, x[near], y[near], z[near], weights, row_search,
                                            settings.structure_gap_m, fit_settings)
-            frame["survey_temperature_c"] = [settings.temperature_of(w) for w in frame["wire"]]
+            frame["survey_temperature_c"] = [settings.temperature_of(w, line_wires[w].conductor, span_id)
+                                             for w, span_id in zip(frame["wire"], frame["span_id"])]
             frame["geometry"] = [fitted_line(row, curve) for (_, row), curve in zip(rows.iterrows(), curves)]
             fits.append(frame)
             found = section_estimates(frame, curves, weights)
-            states.append(found.assign(survey_temperature_c=[settings.temperature_of(w) for w in found["wire"]]))
+            states.append(found.assign(survey_temperature_c=section_temperatures(frame, rows, found)))
             if settings.write_points:
                 point_rows.append(assigned_points(rows, curves, x[near], y[near], z[near], row_search,
                                                   settings.structure_gap_m))
         ordered = pd.concat(ordered, ignore_index=True)
         fits_frame = pd.concat(fits, ignore_index=True)
         record_fit_notes(ctx, fits_frame, ordered, x, y, z, search, settings.structure_gap_m)
+        record_temperature_notes(ctx, settings, pd.concat(states, ignore_index=True))
         layer = gpd.GeoDataFrame(fits_frame.drop(columns="geometry"), geometry=list(fits_frame["geometry"]),
                                  crs=crs)
         wire_points = None
@@ -169,11 +173,45 @@ def with_prior(project, section, rows) -> pd.DataFrame:
     temperature (or left at its own where none is given), bare and initial; it tells stacked wires apart."""
     priors = {}
     for wire in project.line_wires(section["line_id"]):
-        temperature_c = project.point_cloud.temperature_of(wire.name)
+        temperature_c = project.point_cloud.temperature_of(wire.name, wire.conductor)
         temperature_c = wire.stringing.temperature_c if temperature_c is None else temperature_c
         priors[wire.name] = bare_state(project, section, wire, rows[rows["wire"] == wire.name],
                                        temperature_c)["catenary_m"]
     return rows.assign(prior_catenary_m=rows["wire"].map(priors))
+
+
+def check_span_temperatures(settings, wire_spans) -> None:
+    """Every span id of [survey.span_temperature_c] must name a span of the line."""
+    unknown = sorted(set(settings.span_temperature_c) - set(wire_spans["span_id"].astype(str)))
+    if unknown:
+        raise ProjectError(f"[survey.span_temperature_c]: span id(s) {', '.join(map(repr, unknown))} are not "
+                           f"in the spans layer")
+
+
+def section_temperatures(fits, rows, found) -> list[float]:
+    """Survey temperature of each section state (wire) [degC]: its spans' temperatures weighted by span length
+    over the good fits (all spans without one), as a ruling span weighs them; one value unless a span has its
+    own in [survey.span_temperature_c]."""
+    values = []
+    for wire in found["wire"]:
+        mine = (fits["wire"] == wire).to_numpy()
+        good = mine & (fits["quality"] == "good").to_numpy()
+        use = good if good.any() else mine
+        temperatures = fits["survey_temperature_c"].to_numpy(dtype=float)[use]
+        lengths = rows["span_m"].to_numpy(dtype=float)[use]
+        values.append(float(np.average(temperatures, weights=lengths)) if temperatures.size else math.nan)
+    return values
+
+
+def record_temperature_notes(ctx, settings, states) -> None:
+    """run_info: where the survey temperature came from and the value each section state used."""
+    origin = ("[survey] current_a by the IEEE Std 738 heat balance" if settings.survey_current is not None
+              else "[survey] conductor_temperature_c / wire_temperature_c")
+    ctx.notes["survey_temperature_source"] = origin + (" with [survey.span_temperature_c] per span"
+                                                       if settings.span_temperature_c else "")
+    ctx.notes["survey_temperature_c"] = {f"{r.section_id}/{r.wire}": (None if not np.isfinite(r.survey_temperature_c)
+                                                                       else round(float(r.survey_temperature_c), 3))
+                                         for r in states.itertuples()}
 
 
 def near_rows(rows, x, y, reach_m) -> np.ndarray:
