@@ -211,6 +211,7 @@ class WrittenLayers(dict):
     def __init__(self, layers: dict, path):
         super().__init__(layers)
         self._path = path
+        self._attributes: dict = {}
 
     def __getitem__(self, name):
         frame = super().__getitem__(name)
@@ -220,6 +221,18 @@ class WrittenLayers(dict):
             frame = read_layer(self._path, name)
             self[name] = frame
         return frame
+
+    def attributes(self, name):
+        """A layer's attribute table: the frame in memory if there is one, else the file's columns without the
+        geometries (read once), so a summary of a streamed layer does not load its stations."""
+        frame = super().__getitem__(name)
+        if frame is not None or self._path is None:
+            return frame
+        if name not in self._attributes:
+            from routesag.io.gpkg import read_attributes
+
+            self._attributes[name] = read_attributes(self._path, name)
+        return self._attributes[name]
 
     def read_all(self) -> None:
         """Read every layer still held only in the file."""

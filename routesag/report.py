@@ -56,7 +56,7 @@ def summary_text(result, per_span: bool = False, max_violations: int | None = MA
 
 def _summary(result, per_span, max_violations) -> str:
     layers = result.layers
-    conductors, violations = layers["conductors"], layers["clearance_violations"]
+    conductors, violations = _attributes(layers, "conductors"), layers["clearance_violations"]
     lines = [f"routesag: {plural(len(layers['spans']), 'span')} in "
              f"{plural(layers['sections']['section_id'].nunique(), 'tension section')}, "
              f"{plural(conductors['load_case'].nunique(), 'load case')}, {_wires(conductors)}"]
@@ -82,6 +82,11 @@ def _summary(result, per_span, max_violations) -> str:
     lines.append(f"CAUTION: {CAUTION}")
     lines.extend(_written_lines(result))
     return "\n".join(lines)
+
+
+def _attributes(layers, name):
+    """A layer's attribute columns; a run's written layers give them without reading the geometries."""
+    return layers.attributes(name) if hasattr(layers, "attributes") else layers[name]
 
 
 def _violation_lines(violations, limit) -> list[str]:

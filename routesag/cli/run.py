@@ -24,5 +24,6 @@ def run_command(project, out, fail_on_violation, workers, scheduler, per_span, a
     from routesag.progress import section_progress
 
     with terminate_as_interrupt(), section_progress(is_quiet()) as on_section:
-        result = run(project, out=out, workers=workers, scheduler=scheduler, on_section=on_section)
+        result = run(project, out=out, workers=workers, scheduler=scheduler, on_section=on_section,
+                     read_back=False)  # the summary needs no conductor geometry
     finish(result, fail_on_violation, per_span, all_violations, units)

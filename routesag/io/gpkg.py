@@ -186,6 +186,21 @@ def read_layer(path, layer):
         raise DataError(f"cannot read layer {layer!r} of {path}: {exc}") from exc
 
 
+def read_attributes(path, layer):
+    """Read one layer's attribute table without its geometries (a pandas.DataFrame); one row per feature, so a
+    long line's conductors cost their few numbers per profile, not their stations.
+
+    Raises
+    ------
+    DataError
+        The file or the layer cannot be read.
+    """
+    try:
+        return pyogrio.read_dataframe(path, layer=layer, read_geometry=False)
+    except (pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError) as exc:
+        raise DataError(f"cannot read layer {layer!r} of {path}: {exc}") from exc
+
+
 def _check_destination(destination, protect):
     check_output_target(destination, protect)
     folder = destination.parent.resolve()

@@ -28,7 +28,8 @@ from scipy.optimize import brentq
 
 from routesag.errors import SolveError
 
-from .catenary import arc_length, mean_tension
+from .catenary import length_and_mean_tension
+from .roots import remembered
 from .two_material import LinearLaw
 
 __all__ = ["section_unstressed_length", "section_change_of_state", "section_unstressed_length_by_law",
@@ -80,8 +81,7 @@ def section_change_of_state(spans_m, dz_m, tension1_n, weight1_n_m, temperature1
 def section_unstressed_length_by_law(spans_m, dz_m, horizontal_tension_n, weight_n_m, temperature_c, law):
     """Total unstressed length ``sum L_i / x(T_mean,i, t)`` of the section's wire [m] under a stretch law."""
     spans, dz = np.asarray(spans_m, dtype=float), np.asarray(dz_m, dtype=float)
-    length = arc_length(spans, dz, horizontal_tension_n / weight_n_m)
-    tension = mean_tension(spans, dz, horizontal_tension_n, weight_n_m)
+    length, tension = length_and_mean_tension(spans, dz, horizontal_tension_n, weight_n_m)
     return float(np.sum(length / law.stretch_ratio(tension, temperature_c)))
 
 
@@ -94,6 +94,7 @@ def section_change_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, tempe
     target_m = section_unstressed_length_by_law(spans, dz_m, tension1_n, weight1_n_m, temperature1_c, law1)
     spans2, dz2 = (spans, dz_m) if loaded_spans is None else loaded_spans
 
+    @remembered
     def residual(tension_n):
         return section_unstressed_length_by_law(spans2, dz2, tension_n, weight2_n_m, temperature2_c, law2) - target_m
 

@@ -29,7 +29,8 @@ from scipy.optimize import brentq, minimize_scalar
 
 from routesag.errors import SolveError
 
-from .catenary import arc_length, mean_tension
+from .catenary import length_and_mean_tension, mean_tension
+from .roots import remembered
 from .two_material import LinearLaw
 
 __all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "parabolic_change_of_state",
@@ -162,6 +163,7 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
                          f"of 100 % or more ({describe})")
     target_m = _unstressed_length(span_m, tension1_n, weight1_n_m, temperature1_c, law1)
 
+    @remembered
     def residual(tension_n):
         return _unstressed_length(span_m, tension_n, weight2_n_m, temperature2_c, law2) - target_m
 
@@ -181,8 +183,7 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
 
 def _unstressed_length(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):
     """Unstressed length ``L / x(T_mean, t)`` of a level span [m]."""
-    stretched = arc_length(span_m, 0.0, horizontal_tension_n / weight_n_m)
-    tension = mean_tension(span_m, 0.0, horizontal_tension_n, weight_n_m)
+    stretched, tension = length_and_mean_tension(span_m, 0.0, horizontal_tension_n, weight_n_m)
     return float(stretched / law.stretch_ratio(tension, temperature_c))
 
 

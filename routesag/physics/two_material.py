@@ -46,6 +46,7 @@ from scipy.optimize import brentq
 
 from routesag.errors import SolveError
 
+from .roots import remembered
 from .stress_strain import CurveLaw, StressStrainCurves
 
 __all__ = ["LinearLaw", "TwoMaterialConductor", "TwoMaterialLaw", "knee_point_temperature_c",
@@ -160,8 +161,10 @@ class TwoMaterialLaw:
 
     def knee_tension_n(self, temperature_c):
         """Tension at ``t`` below which the aluminium is at its compression limit (the core alone works) [N]."""
+        return self._knee_tension_at(*self._growth(temperature_c))
+
+    def _knee_tension_at(self, core_g, alu_g):
         c = self.conductor
-        core_g, alu_g = self._growth(temperature_c)
         knee_x = alu_g * (1.0 - c.aluminium_compression_pa / c.aluminium_modulus_pa)
         return c.core_stiffness_n * (knee_x / core_g - 1.0) - c.aluminium_compression_pa * c.aluminium_area_m2
 
@@ -174,7 +177,7 @@ class TwoMaterialLaw:
             c.core_stiffness_n / core_g + c.aluminium_stiffness_n / alu_g)
         core_only = core_g * (tension + c.aluminium_compression_pa * c.aluminium_area_m2
                               + c.core_stiffness_n) / c.core_stiffness_n
-        return np.where(tension >= self.knee_tension_n(temperature_c), both, core_only)
+        return np.where(tension >= self._knee_tension_at(core_g, alu_g), both, core_only)
 
     def aluminium_stress_pa(self, tension_n, temperature_c):
         """Stress in the aluminium layers [Pa] (negative: compression, at least ``-aluminium_compression_pa``)."""
@@ -193,6 +196,7 @@ def knee_point_temperature_c(mean_tension_at, law: TwoMaterialLaw, search_c=KNEE
     so the knee is the one root of their difference, found by ``brentq``.
     NaN when it lies outside ``search_c``.
     """
+    @remembered
     def excess(t_c):
         return float(mean_tension_at(t_c)) - float(law.knee_tension_n(t_c))
 
