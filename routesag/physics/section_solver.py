@@ -24,12 +24,11 @@ References
 """
 
 import numpy as np
-from scipy.optimize import brentq
 
 from routesag.errors import SolveError
 
 from .catenary import length_and_mean_tension
-from .roots import remembered
+from .roots import remembered, tension_root
 from .two_material import LinearLaw
 
 __all__ = ["section_unstressed_length", "section_change_of_state", "section_unstressed_length_by_law",
@@ -104,8 +103,4 @@ def section_change_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, tempe
         raise SolveError(f"section change of state has no solution with a horizontal tension between {low:.4g} N "
                          f"and EA = {high:.4g} N (state 1 H = {tension1_n:g} N, t = {temperature1_c:g} C; "
                          f"state 2 w = {weight2_n_m:g} N/m, t = {temperature2_c:g} C)")
-    try:
-        return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
-    except RuntimeError as exc:  # no convergence: properties so far from a real wire that the residual is flat
-        raise SolveError(f"section change of state did not converge ({exc}); check the conductor's modulus, mass and "
-                         "expansion for a unit or typing error") from None
+    return tension_root(residual, low, high, "section change of state")

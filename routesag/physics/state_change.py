@@ -30,7 +30,7 @@ from scipy.optimize import brentq, minimize_scalar
 from routesag.errors import SolveError
 
 from .catenary import length_and_mean_tension, mean_tension
-from .roots import remembered
+from .roots import remembered, tension_root
 from .two_material import LinearLaw
 
 __all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "parabolic_change_of_state",
@@ -174,11 +174,7 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
     if low is None:
         raise SolveError(f"change of state has no solution with a horizontal tension between "
                          f"{low_limit:.4g} N and {high_limit:.4g} N ({describe})")
-    try:
-        return brentq(residual, low, high, xtol=1e-9, rtol=1e-13, maxiter=200)
-    except RuntimeError as exc:  # no convergence: properties so far from a real wire that the residual is flat
-        raise SolveError(f"change of state did not converge ({exc}); check the conductor's modulus, mass and "
-                         "expansion for a unit or typing error") from None
+    return tension_root(residual, low, high, "change of state")
 
 
 def _unstressed_length(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):
