@@ -48,14 +48,16 @@ References
 
 import numpy as np
 
+from .stacked import StackedStations
+
 __all__ = ["BOUND_M", "grid_line_crossings", "quadratic_vertex_stations", "exact_minimum_stations",
-           "exact_minimum_stations_many", "zero_crossing_bounds"]
+           "exact_minimum_stations_stacked", "exact_minimum_stations_many", "zero_crossing_bounds"]
 
 #: Stated bound [m]: the reported minimum clearance exceeds the true minimum along the path by at most this.
 BOUND_M = 1e-3
 
 
-def grid_line_crossings(stations_m, u, v):
+def grid_line_crossings(stations_m, u, v, joined=None):
     """Where the chords between consecutive stations cross integer ``u`` or ``v``.
 
     Parameters
@@ -64,6 +66,10 @@ def grid_line_crossings(stations_m, u, v):
         Increasing stations [m].
     u, v : numpy.ndarray
         Grid coordinates of the wire's plan position at each station [-].
+    joined : numpy.ndarray of bool, optional
+        One per chord (``len(stations_m) - 1``): False where two
+        consecutive stations are no chord of one wire (where one wire ends
+        and the next begins in a :class:`~routesag.physics.stacked.StackedStations`).
 
     Returns
     -------
@@ -73,17 +79,23 @@ def grid_line_crossings(stations_m, u, v):
         coordinate's rate along the chord [1/m]. Non-finite coordinates give
         no crossing.
     """
+    return _crossings(stations_m, u, v, joined)[:4]
+
+
+def _crossings(stations_m, u, v, joined=None):
+    """:func:`grid_line_crossings` and, fifth, the index of the chord (its first station) of each crossing."""
     s = np.asarray(stations_m, dtype=float)
-    found = [_axis_crossings(s, np.asarray(coord, dtype=float), axis) for axis, coord in enumerate((u, v))]
+    found = [_axis_crossings(s, np.asarray(coord, dtype=float), axis, joined) for axis, coord in enumerate((u, v))]
     return tuple(np.concatenate(parts) for parts in zip(*found))
 
 
-def _axis_crossings(s, coord, axis):
+def _axis_crossings(s, coord, axis, joined):
     a, b = coord[:-1], coord[1:]
     with np.errstate(invalid="ignore"):
         low, high = np.minimum(a, b), np.maximum(a, b)
         first = np.floor(low) + 1.0          # integers strictly above the lower end ...
-        count = np.where(np.isfinite(low + high), np.ceil(high) - first, 0.0)  # ... and strictly below the upper
+        chord = np.isfinite(low + high) if joined is None else np.isfinite(low + high) & joined
+        count = np.where(chord, np.ceil(high) - first, 0.0)  # ... and strictly below the upper
     count = np.maximum(count, 0).astype(np.int64)
     segment = np.repeat(np.arange(len(a)), count)
     offset = np.arange(count.sum()) - np.repeat(np.cumsum(count) - count, count)
@@ -91,7 +103,13 @@ def _axis_crossings(s, coord, axis):
     length = s[segment + 1] - s[segment]
     slope = (b[segment] - a[segment]) / length
     station = s[segment] + (level - a[segment]) / slope
-    return station, np.full(len(station), axis), level, slope
+    return station, np.full(len(station), axis), level, slope, segment
+
+
+def _onto_path(crossing_m, axis, level, slope, uv_at_crossing, first_m, last_m):
+    """One secant step from the chord's crossing onto the real plan path (curved under wind), kept in the span."""
+    residual = np.where(axis == 0, uv_at_crossing[0], uv_at_crossing[1]) - level
+    return np.clip(crossing_m - np.nan_to_num(residual) / slope, first_m, last_m)
 
 
 def quadratic_vertex_stations(start_m, end_m, g_start, g_mid, g_end):
@@ -110,13 +128,19 @@ def quadratic_vertex_stations(start_m, end_m, g_start, g_mid, g_end):
         Vertex stations [m] of the pieces whose quadratic opens upwards with
         its vertex strictly inside the piece (NaN clearances give none).
     """
+    vertex, keep = _vertices(start_m, end_m, g_start, g_mid, g_end)
+    return vertex[keep]
+
+
+def _vertices(start_m, end_m, g_start, g_mid, g_end):
+    """Vertex station of every piece's quadratic and whether it counts (see :func:`quadratic_vertex_stations`)."""
     # q(t) = g_start + slope t + curvature t^2 on t in [0, 1], through the three clearances
     curvature = 2.0 * (g_start - 2.0 * g_mid + g_end)
     slope = -3.0 * g_start + 4.0 * g_mid - g_end
     with np.errstate(invalid="ignore", divide="ignore"):
         t = -slope / (2.0 * curvature)
         keep = (curvature > 0) & (t > 0) & (t < 1)
-    return start_m[keep] + t[keep] * (end_m[keep] - start_m[keep])
+    return start_m + t * (end_m - start_m), keep
 
 
 def exact_minimum_stations(stations_m, grid_uv, clearance_m):
@@ -138,9 +162,85 @@ def exact_minimum_stations(stations_m, grid_uv, clearance_m):
     numpy.ndarray
         Sorted unique stations within the span [m]: the given ones, the grid
         line crossings and the vertices of the pieces between them.
+
+    See Also
+    --------
+    exact_minimum_stations_stacked : the same for many wires in one array.
     """
-    return exact_minimum_stations_many([stations_m], lambda many: [grid_uv(s) for s in many],
-                                       lambda many: [clearance_m(s) for s in many])[0]
+    s = np.asarray(stations_m, dtype=float)
+    crossing, axis, level, slope = grid_line_crossings(s, *grid_uv(s))
+    if len(crossing):
+        crossing = _onto_path(crossing, axis, level, slope, grid_uv(crossing), s[0], s[-1])
+    pieces = np.unique(np.concatenate([s, crossing]))
+    g = clearance_m(np.concatenate([pieces, (pieces[:-1] + pieces[1:]) / 2.0]))
+    g_ends, g_mid = g[:len(pieces)], g[len(pieces):]
+    vertex = quadratic_vertex_stations(pieces[:-1], pieces[1:], g_ends[:-1], g_mid, g_ends[1:])
+    return np.unique(np.concatenate([pieces, vertex]))
+
+
+def exact_minimum_stations_stacked(stations, grid_uv, clearance_m):
+    """:func:`exact_minimum_stations` of many wires at once, on stacked stations.
+
+    Parameters
+    ----------
+    stations : routesag.physics.stacked.StackedStations
+        Each wire's increasing stations, no further apart than a cell [m].
+    grid_uv : callable
+        ``grid_uv(stations_m, wire) -> (u, v)``: grid coordinates of wire
+        ``wire[i]``'s plan position at ``stations_m[i]``.
+    clearance_m : callable
+        ``clearance_m(stations_m, wire) -> g``: that wire's elevation minus
+        the bilinear terrain there [m] (NaN over nodata). It is called once,
+        for every wire's piece ends and middles.
+
+    Returns
+    -------
+    StackedStations
+        Each wire's stations, equal to :func:`exact_minimum_stations` of
+        that wire alone.
+
+    Notes
+    -----
+    The callables are given points grouped by wire, in wire order (all of
+    wire 0's, then wire 1's, ...), so a caller can read the terrain under
+    neighbouring wires together.
+    """
+    s, wire = stations.values, stations.wire
+    crossing, axis, level, slope, chord = _crossings(s, *grid_uv(s, wire), stations.neighbours())
+    order = np.argsort(chord, kind="stable")      # u and v crossings together, wire by wire
+    crossing, axis, level, slope, chord = (a[order] for a in (crossing, axis, level, slope, chord))
+    crossing_wire = wire[chord]
+    if len(crossing):
+        crossing = _onto_path(crossing, axis, level, slope, grid_uv(crossing, crossing_wire),
+                              s[stations.bounds[:-1][crossing_wire]], s[stations.bounds[1:][crossing_wire] - 1])
+    pieces = stations.with_extra(crossing, crossing_wire)
+    ends, middles, asked, asked_wire = _ends_and_middles(pieces)
+    g = clearance_m(asked, asked_wire)
+    p = pieces.values
+    vertex, keep = _vertices(p[:-1], p[1:], g[ends[:-1]], g[np.maximum(middles, 0)], g[ends[1:]])
+    keep &= middles >= 0
+    return pieces.with_extra(vertex[keep], pieces.wire[:-1][keep])
+
+
+def _ends_and_middles(pieces):
+    """Each wire's piece ends then their middles, wire after wire; where each end and middle sits in that list.
+
+    Returns ``(ends, middles, asked, asked_wire)``: ``asked[ends[i]]`` is
+    ``pieces.values[i]``; ``asked[middles[i]]`` is the middle of the piece
+    from ``values[i]`` to ``values[i + 1]`` (-1 where they belong to two wires).
+    """
+    p, wire, count = pieces.values, pieces.wire, pieces.counts
+    size = np.maximum(2 * count - 1, 0)
+    first_asked = np.cumsum(size) - size
+    ends = first_asked[wire] + (np.arange(len(p)) - pieces.bounds[:-1][wire])
+    joined = wire[1:] == wire[:-1]
+    middles = np.where(joined, ends[:-1] + count[wire[:-1]], -1)
+    asked = np.empty(int(size.sum()))
+    asked_wire = np.empty(len(asked), dtype=np.int64)
+    asked[ends], asked_wire[ends] = p, wire
+    inner = middles[joined]
+    asked[inner], asked_wire[inner] = ((p[:-1] + p[1:]) / 2.0)[joined], wire[:-1][joined]
+    return ends, middles, asked, asked_wire
 
 
 def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):
@@ -160,24 +260,20 @@ def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):
     list of numpy.ndarray
         Each wire's stations, as :func:`exact_minimum_stations` gives them.
     """
-    stations = [np.asarray(s, dtype=float) for s in stations_m]
-    found = [grid_line_crossings(s, u, v) for s, (u, v) in zip(stations, grid_uv(stations), strict=True)]
-    crossings = [crossing for crossing, *_ in found]
-    for i, at in enumerate(grid_uv(crossings) if any(len(c) for c in crossings) else ()):
-        crossing, axis, level, slope = found[i]
-        if not len(crossing):
-            continue
-        # one secant step from the chord onto the real plan path (curved under wind)
-        residual = np.where(axis == 0, at[0], at[1]) - level
-        crossings[i] = np.clip(crossing - np.nan_to_num(residual) / slope, stations[i][0], stations[i][-1])
-    pieces = [np.unique(np.concatenate([s, crossing])) for s, crossing in zip(stations, crossings)]
-    asked = [np.concatenate([p, (p[:-1] + p[1:]) / 2.0]) for p in pieces]
-    result = []
-    for p, g in zip(pieces, clearance_m(asked), strict=True):
-        g_ends, g_mid = g[:len(p)], g[len(p):]
-        vertex = quadratic_vertex_stations(p[:-1], p[1:], g_ends[:-1], g_mid, g_ends[1:])
-        result.append(np.unique(np.concatenate([p, vertex])))
-    return result
+    n = len(stations_m)
+
+    def per_wire(values, wire):
+        bounds = np.searchsorted(wire, np.arange(n + 1))
+        return [values[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
+
+    def stacked_uv(values, wire):
+        uv = grid_uv(per_wire(values, wire))
+        return np.concatenate([u for u, _ in uv]), np.concatenate([v for _, v in uv])
+
+    def stacked_clearance(values, wire):
+        return np.concatenate(clearance_m(per_wire(values, wire)))
+
+    return exact_minimum_stations_stacked(StackedStations.of(stations_m), stacked_uv, stacked_clearance).split()
 
 
 def zero_crossing_bounds(s0_m, s1_m, f0, f1):

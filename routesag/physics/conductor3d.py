@@ -29,9 +29,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .catenary import arc_length, catenary_z, low_point_x, midspan_sag, support_tensions, vertical_reactions
+from .catenary import arc_length, low_point_x, midspan_sag, support_tensions, vertical_reactions
+from .stacked import StackedStations
 
-__all__ = ["swung_span", "conductor_points", "conductor_stations", "span_geometry", "SpanGeometry"]
+__all__ = ["swung_span", "conductor_points", "conductor_stations", "conductor_stations_stacked", "span_geometry",
+           "SpanGeometry"]
 
 
 def swung_span(span_m, dz_m, blowout_rad):
@@ -63,72 +65,91 @@ def swung_span(span_m, dz_m, blowout_rad):
 
 
 def _swung_axes(start_xyz, end_xyz, blowout_rad, side):
-    """World unit vectors ``e1``, ``e2`` of the swung plane and the span data."""
-    start = np.asarray(start_xyz, dtype=float)
-    end = np.asarray(end_xyz, dtype=float)
-    chord = end - start
-    span_m = float(np.hypot(chord[0], chord[1]))
-    if span_m <= 0:
-        raise ValueError(f"span has no horizontal length: start {start.tolist()} and end {end.tolist()}")
-    along = np.array([chord[0], chord[1], 0.0]) / span_m
-    right = np.array([along[1], -along[0], 0.0])
+    """World unit vectors ``e1``, ``e2`` of each span's swung plane (rows) and the span data, one entry per span."""
+    chord = end_xyz - start_xyz
+    span_m = np.hypot(chord[:, 0], chord[:, 1])
+    flat = np.flatnonzero(span_m <= 0)
+    if len(flat):
+        k = flat[0]
+        raise ValueError(f"span has no horizontal length: start {start_xyz[k].tolist()} and end "
+                         f"{end_xyz[k].tolist()}")
+    zero = np.zeros(len(span_m))
+    along = np.column_stack([chord[:, 0], chord[:, 1], zero]) / span_m[:, None]
+    right = np.column_stack([along[:, 1], -along[:, 0], zero])
     up = np.array([0.0, 0.0, 1.0])
-    phi = float(blowout_rad)
-    e2 = -side * np.sin(phi) * right + np.cos(phi) * up
-    dz_swung = float(chord @ e2)
-    in_plane = chord - dz_swung * e2
-    span_swung = float(np.linalg.norm(in_plane))
-    return in_plane / span_swung, e2, span_m, span_swung, dz_swung
+    e2 = (-side * np.sin(blowout_rad))[:, None] * right + np.cos(blowout_rad)[:, None] * up
+    dz_swung = np.einsum("ij,ij->i", chord, e2)
+    in_plane = chord - dz_swung[:, None] * e2
+    span_swung = np.linalg.norm(in_plane, axis=1)
+    return in_plane / span_swung[:, None], e2, span_m, span_swung, dz_swung
 
 
-def conductor_points(start_xyz, end_xyz, horizontal_tension_n, resultant_n_m, blowout_rad, stations_m, side=1.0):
-    """World coordinates of the wire at given stations along the span.
+def conductor_points(start_xyz, end_xyz, horizontal_tension_n, resultant_n_m, blowout_rad, stations_m, side=1.0,
+                     wire=None):
+    """World coordinates of the wire at given stations along the span, or of many spans' wires at once.
 
     Parameters
     ----------
-    start_xyz : array-like of 3 floats
-        Attachment point at support A, projected CRS [m].
-    end_xyz : array-like of 3 floats
+    start_xyz : array-like of 3 floats, or (K, 3)
+        Attachment point at support A, projected CRS [m]; one row per wire
+        when ``wire`` is given.
+    end_xyz : array-like of 3 floats, or (K, 3)
         Attachment point at support B, projected CRS [m].
-    horizontal_tension_n : float
+    horizontal_tension_n : float or array of K
         Tension component perpendicular to the load in the swung plane [N]
         (the horizontal tension when there is no wind).
-    resultant_n_m : float
+    resultant_n_m : float or array of K
         Resultant load per unit length that sets the catenary [N/m].
-    blowout_rad : float
+    blowout_rad : float or array of K
         Blowout angle of the load from vertical [rad].
     stations_m : array-like
         Horizontal distances from A along the line A->B [m], normally 0..S.
-    side : float, default +1
+    side : float or array of K, default +1
         +1 blows the wire to the right of A->B (seen from A), -1 to the left.
+    wire : array-like of int, optional
+        For K wires at once: the wire (row of the parameters) of each
+        station, e.g. :attr:`routesag.physics.stacked.StackedStations.wire`.
 
     Returns
     -------
     numpy.ndarray, shape (N, 3)
         x, y, z of the wire [m]. Stations 0 and S return the attachment
-        points exactly.
+        points exactly. A point depends only on its station and its wire's
+        parameters, whatever else is asked in the same call.
 
     Notes
     -----
     A station ``s`` maps to the in-plane parameter ``x' = s S'/S`` (the
     along-line part of ``e1`` is ``S/S'``); the point is
-    ``A + x' e1 + z'(x') e2`` with ``z'`` the catenary in the swung frame.
+    ``A + x' e1 + z'(x') e2`` with ``z'`` the catenary in the swung frame,
+    ``z' = 2c sinh((x' - 2 x'_m)/2c) sinh(x'/2c)`` as in
+    :func:`routesag.physics.catenary.catenary_z` with its low point ``x'_m``
+    found once per wire.
 
     References
     ----------
     .. [1] Grigsby (ed.), ch. 14 (blowout); Irvine, Cable Structures, ch. 1.
     """
-    start = np.asarray(start_xyz, dtype=float)
-    end = np.asarray(end_xyz, dtype=float)
-    e1, e2, span_m, span_swung, dz_swung = _swung_axes(start, end, blowout_rad, np.copysign(1.0, side))
+    start = np.atleast_2d(np.asarray(start_xyz, dtype=float))
+    end = np.atleast_2d(np.asarray(end_xyz, dtype=float))
     stations = np.atleast_1d(np.asarray(stations_m, dtype=float))
-    x_swung = stations * (span_swung / span_m)
-    catenary_m = float(horizontal_tension_n) / float(resultant_n_m)
-    z_swung = catenary_z(x_swung, span_swung, dz_swung, catenary_m)
-    points = start + x_swung[:, None] * e1 + z_swung[:, None] * e2
-    tolerance = 1e-9 * max(span_m, 1.0)
-    points[np.abs(stations) <= tolerance] = start
-    points[np.abs(stations - span_m) <= tolerance] = end
+    wire = np.zeros(len(stations), dtype=np.int64) if wire is None else np.asarray(wire, dtype=np.int64)
+    n = len(start)
+    phi = np.broadcast_to(np.asarray(blowout_rad, dtype=float), (n,))
+    side = np.copysign(1.0, np.broadcast_to(np.asarray(side, dtype=float), (n,)))
+    e1, e2, span_m, span_swung, dz_swung = _swung_axes(start, end, phi, side)
+    catenary_m = np.broadcast_to(np.asarray(horizontal_tension_n, dtype=float) / np.asarray(resultant_n_m, dtype=float),
+                                 (n,))
+    two_c = (2.0 * catenary_m)[wire]
+    x_swung = stations * (span_swung / span_m)[wire]
+    z_swung = two_c * np.sinh((x_swung - (2.0 * low_point_x(span_swung, dz_swung, catenary_m))[wire]) / two_c) \
+        * np.sinh(x_swung / two_c)
+    points = start[wire] + x_swung[:, None] * e1[wire] + z_swung[:, None] * e2[wire]
+    tolerance = (1e-9 * np.maximum(span_m, 1.0))[wire]
+    at_start = np.abs(stations) <= tolerance
+    at_end = np.abs(stations - span_m[wire]) <= tolerance
+    points[at_start] = start[wire[at_start]]
+    points[at_end] = end[wire[at_end]]
     return points
 
 
@@ -160,6 +181,37 @@ def conductor_stations(span_m, station_m, low_point_m=None):
     if low_point_m is not None and 0.0 < low_point_m < span_m:
         extra.append(float(low_point_m))
     return np.unique(np.concatenate([stations, extra]))
+
+
+def conductor_stations_stacked(span_m, station_m, low_point_m) -> StackedStations:
+    """:func:`conductor_stations` of many spans at once, stacked.
+
+    Parameters
+    ----------
+    span_m : array of K floats
+        Horizontal spans [m].
+    station_m : float
+        Station interval [m], > 0.
+    low_point_m : array of K floats
+        Low-point distances from A [m]; each is added when inside its span.
+
+    Returns
+    -------
+    StackedStations
+        Wire ``k``'s stations equal ``conductor_stations(span_m[k], station_m, low_point_m[k])``.
+    """
+    span = np.asarray(span_m, dtype=float)
+    low = np.asarray(low_point_m, dtype=float)
+    station_m = float(station_m)
+    if not station_m > 0:
+        raise ValueError(f"station interval must be positive, got {station_m!r} m")
+    count = np.ceil(span / station_m - 1e-9).astype(np.int64)
+    starts = np.cumsum(count) - count
+    regular = (np.arange(count.sum()) - np.repeat(starts, count)) * station_m
+    wires = np.arange(len(span))
+    inside = (0.0 < low) & (low < span)
+    return StackedStations.gather(np.concatenate([regular, span, low[inside]]),
+                                  np.concatenate([np.repeat(wires, count), wires, wires[inside]]), len(span))
 
 
 @dataclass(frozen=True)

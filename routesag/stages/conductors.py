@@ -5,11 +5,11 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 
 from routesag.errors import DataError
-from routesag.physics.bilinear import exact_minimum_stations, exact_minimum_stations_many
-from routesag.physics.conductor3d import conductor_points, conductor_stations, span_geometry
+from routesag.physics.bilinear import exact_minimum_stations_stacked
+from routesag.physics.conductor3d import conductor_points, conductor_stations_stacked, span_geometry
+from routesag.physics.stacked import StackedStations
 from routesag.pipeline import Stage
 from routesag.profiles import ConductorProfile, Profiles
 
@@ -30,53 +30,41 @@ class BuildConductors(Stage):
         if note:
             ctx.warn(note)
         ctx.notes["station_m"] = station_m
-        rows = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
+        cases = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
         terrain = TerrainView(data["terrain"], data["work_crs"])
-        return {"conductors": Profiles(span_profiles(rows.to_dict("records"), station_m, terrain))}
+        return {"conductors": Profiles(span_profiles(cases, station_m, terrain))}
 
 
 @dataclass(frozen=True)
 class TerrainView:
-    """The terrain seen from the working CRS: what :func:`span_profile` needs to place exact-minimum stations."""
+    """The terrain seen from the working CRS: what :func:`span_profiles` needs to place exact-minimum stations."""
 
     sampler: object
     crs: object
 
-    def exact_stations(self, stations_m, wire_at):
+    def exact_stations(self, stations: StackedStations, wire_at, window_group) -> StackedStations:
         """Stations plus the grid-line crossings and quadratic vertices of :mod:`routesag.physics.bilinear`.
 
-        ``wire_at(stations) -> (n, 3)`` gives the wire's points in the working CRS.
+        ``wire_at(stations, wire) -> (n, 3)`` gives the wires' points in the working CRS; wires with the same
+        ``window_group`` (the wires and load cases of one span) are sampled together, from one window.
         """
-        def grid_uv(s):
-            xyz = wire_at(s)
+        def grid_uv(s, wire):
+            xyz = wire_at(s, wire)
             return self.sampler.grid_coords(xyz[:, 0], xyz[:, 1], crs=self.crs)
 
-        def clearance(s):
-            xyz = wire_at(s)
-            return xyz[:, 2] - self.sampler.sample(xyz[:, 0], xyz[:, 1], crs=self.crs)
+        def clearance(s, wire):
+            xyz = wire_at(s, wire)
+            return xyz[:, 2] - self.sample_in_groups(xyz, window_group[wire])
 
-        return exact_minimum_stations(stations_m, grid_uv, clearance)
+        return exact_minimum_stations_stacked(stations, grid_uv, clearance)
 
-    def exact_stations_many(self, stations_m, wires_at):
-        """:meth:`exact_stations` for several wires (a span's wires and load cases): one terrain query per step.
-
-        ``stations_m`` and ``wires_at`` are lists, one entry per wire; the samples are those of
-        :meth:`exact_stations` (bilinear interpolation is per point, whatever the batch).
-        """
-        def stacked(many):
-            parts = [wire_at(s) for wire_at, s in zip(wires_at, many, strict=True)]
-            return np.concatenate(parts), np.cumsum([len(p) for p in parts])[:-1]
-
-        def grid_uv(many):
-            xyz, cuts = stacked(many)
-            u, v = self.sampler.grid_coords(xyz[:, 0], xyz[:, 1], crs=self.crs)
-            return list(zip(np.split(u, cuts), np.split(v, cuts)))
-
-        def clearance(many):
-            xyz, cuts = stacked(many)
-            return np.split(xyz[:, 2] - self.sampler.sample(xyz[:, 0], xyz[:, 1], crs=self.crs), cuts)
-
-        return exact_minimum_stations_many(stations_m, grid_uv, clearance)
+    def sample_in_groups(self, xyz, group):
+        """Terrain under points [m], one sampler call per run of equal ``group`` (its window is read once)."""
+        cuts = np.concatenate([[0], np.flatnonzero(group[1:] != group[:-1]) + 1, [len(group)]])
+        ground = np.empty(len(group))
+        for a, b in zip(cuts[:-1], cuts[1:]):
+            ground[a:b] = self.sampler.sample(xyz[a:b, 0], xyz[a:b, 1], crs=self.crs)
+        return ground
 
 
 def effective_station_m(station_m: float, terrain) -> tuple[float, str | None]:
@@ -104,20 +92,35 @@ def terrain_cell_m(terrain) -> float:
         return float(min(res_x * math.cos(mid_lat), res_y) * METRES_PER_DEGREE)
 
 
-def span_cases(wire_spans, tensions, structure_loads) -> pd.DataFrame:
-    """One row per span, wire and load case: the solved tension and both clamps in that case.
+def span_cases(wire_spans, tensions, structure_loads) -> dict[str, np.ndarray]:
+    """One entry per span, wire and load case: the solved tension and both clamps in that case, as columns.
 
-    Clamps (start x0, y0, z0; end x1, y1, z1) come from ``structure_loads``,
-    where a suspension string has swung them out under the load case.
+    The entries follow ``wire_spans``, and for each wire span its section's and wire's ``tensions`` rows in
+    their order. Clamps (start x0, y0, z0; end x1, y1, z1) come from ``structure_loads``, where a suspension
+    string has swung them out under the load case; a clamp missing there is NaN.
     """
-    clamps = structure_loads[["line_id", "structure_id", "wire", "load_case", "x", "y", "z"]]
-    rows = wire_spans.drop(columns=["x0", "y0", "z0", "x1", "y1", "z1"]).merge(
-        tensions, on=["section_id", "wire"], sort=False)
+    cases_of = {}
+    for j, key in enumerate(zip(tensions["section_id"], tensions["wire"])):
+        cases_of.setdefault(key, []).append(j)
+    pairs = [(i, j) for i, key in enumerate(zip(wire_spans["section_id"], wire_spans["wire"]))
+             for j in cases_of.get(key, ())]
+    span_rows, case_rows = (np.array(rows, dtype=np.int64) for rows in zip(*pairs)) if pairs else ([], [])
+    columns = {name: wire_spans[name].to_numpy()[span_rows]
+               for name in ("span_id", "section_id", "wire", "line_id", "from_id", "to_id")}
+    columns.update({name: tensions[name].to_numpy()[case_rows] for name in
+                    ("load_case", "horizontal_tension_n", "resultant_n_m", "blowout_rad", "blowout_deg", "side")})
+    keys = list(zip(structure_loads["line_id"], structure_loads["structure_id"], structure_loads["wire"],
+                    structure_loads["load_case"]))
+    clamp_row = {key: k for k, key in enumerate(keys)}
+    if len(clamp_row) != len(keys):
+        raise ValueError("structure_loads holds two rows for one structure, wire and load case")
+    clamps = np.vstack([structure_loads[["x", "y", "z"]].to_numpy(dtype=float), np.full((1, 3), np.nan)])
     for end, structure in (("0", "from_id"), ("1", "to_id")):
-        rows = rows.merge(clamps.rename(columns={"structure_id": structure, "x": f"x{end}", "y": f"y{end}",
-                                                 "z": f"z{end}"}),
-                          on=["line_id", structure, "wire", "load_case"], how="left", sort=False)
-    return rows
+        rows = [clamp_row.get(key, -1) for key in zip(columns["line_id"], columns[structure], columns["wire"],
+                                                      columns["load_case"])]
+        xyz = clamps[np.array(rows, dtype=np.int64)]
+        columns.update({f"x{end}": xyz[:, 0], f"y{end}": xyz[:, 1], f"z{end}": xyz[:, 2]})
+    return columns
 
 
 def span_profile(row, station_m: float, terrain: TerrainView | None = None) -> ConductorProfile:
@@ -128,71 +131,76 @@ def span_profile(row, station_m: float, terrain: TerrainView | None = None) -> C
     load_case and (optionally) wire. With ``terrain``, the stations also hold every point where
     the minimum clearance to the bilinear terrain can lie (grid-line crossings, quadratic vertices).
     """
-    wire = HangingWire(row, station_m)
-    stations = wire.stations
+    return span_profiles({name: [value] for name, value in row.items()}, station_m, terrain)[0]
+
+
+def span_profiles(cases, station_m: float, terrain: TerrainView | None = None) -> list[ConductorProfile]:
+    """:func:`span_profile` of every entry of ``cases`` (columns, as :func:`span_cases` gives them), in order.
+
+    All entries are computed at once on stacked stations; the entries of one span (its wires and load cases,
+    consecutive) read the terrain together, so each span costs one window read.
+    """
+    wires = HangingWires(cases, station_m)
+    stations = wires.stations
     if terrain is not None:
-        stations = terrain.exact_stations(stations, wire.at)
-    return wire.profile(stations)
+        stations = terrain.exact_stations(stations, wires.at, wires.span_group)
+    return wires.profiles(stations)
 
 
-def span_profiles(rows, station_m: float, terrain: TerrainView | None = None) -> list[ConductorProfile]:
-    """:func:`span_profile` of every row, in order; the rows of one span (its wires and load cases) ask the
-    terrain together, so each step of the exact-minimum search is one terrain query per span."""
-    wires = [HangingWire(row, station_m) for row in rows]
-    if terrain is None:
-        return [w.profile(w.stations) for w in wires]
-    profiles = []
-    for group in _consecutive_spans(wires):
-        stations = terrain.exact_stations_many([w.stations for w in group], [w.at for w in group])
-        profiles.extend(w.profile(s) for w, s in zip(group, stations, strict=True))
-    return profiles
+class HangingWires:
+    """Spans, wires and load cases between their clamps: the exact catenaries, their regular stations, points."""
 
+    def __init__(self, cases, station_m: float):
+        self.cases = cases
+        column = {name: np.asarray(cases[name], dtype=float) for name in
+                  ("x0", "y0", "z0", "x1", "y1", "z1", "horizontal_tension_n", "resultant_n_m", "blowout_rad",
+                   "side")}
+        self.start = np.column_stack([column["x0"], column["y0"], column["z0"]])
+        self.end = np.column_stack([column["x1"], column["y1"], column["z1"]])
+        chord = self.end - self.start
+        self.span_m = np.hypot(chord[:, 0], chord[:, 1])
+        self.h, self.w = column["horizontal_tension_n"], column["resultant_n_m"]
+        self.phi, self.side = column["blowout_rad"], column["side"]
+        self.geometry = span_geometry(self.span_m, chord[:, 2], self.h, self.w, self.phi)
+        # the wire's lowest point, also under wind on an inclined span
+        self.low_m = np.asarray(self.geometry.low_point_m, dtype=float)
+        self.stations = conductor_stations_stacked(self.span_m, station_m, self.low_m)
+        span_id = list(cases["span_id"])
+        self.span_group = np.cumsum([k > 0 and span_id[k] != span_id[k - 1] for k in range(len(span_id))])
 
-def _consecutive_spans(wires):
-    group = []
-    for wire in wires:
-        if group and wire.row["span_id"] != group[0].row["span_id"]:
-            yield group
-            group = []
-        group.append(wire)
-    if group:
-        yield group
+    def at(self, stations_m, wire):
+        return conductor_points(self.start, self.end, self.h, self.w, self.phi, stations_m, side=self.side,
+                                wire=wire)
 
+    def profiles(self, stations: StackedStations) -> list[ConductorProfile]:
+        """One profile per entry; its stations and points are slices of the stacked arrays."""
+        xyz = self.at(stations.values, stations.wire)
+        blowout = self.blowout_m(xyz, stations)
+        cases, geometry = self.cases, self.geometry
+        wires = cases["wire"] if "wire" in cases else [""] * len(self.span_m)
+        numbers = zip(self.h.tolist(), *(np.asarray(a, dtype=float).tolist() for a in (
+            geometry.max_tension_n, geometry.sag_m, self.low_m, geometry.catenary_m, cases["blowout_deg"],
+            geometry.swung_sag_m, blowout)))
+        bounds = stations.bounds.tolist()
+        return [ConductorProfile(
+            span_id=span_id, section_id=section_id, load_case=load_case,
+            stations_m=stations.values[a:b], xyz=xyz[a:b], horizontal_tension_n=h, max_tension_n=max_tension,
+            sag_m=sag, low_point_m=low, catenary_m=catenary, blowout_deg=blowout_deg, wire=str(wire),
+            swung_sag_m=swung_sag, blowout_m=reach)
+            for span_id, section_id, load_case, wire, a, b, (h, max_tension, sag, low, catenary, blowout_deg,
+                                                             swung_sag, reach)
+            in zip(cases["span_id"], cases["section_id"], cases["load_case"], wires, bounds[:-1], bounds[1:],
+                   numbers, strict=True)]
 
-class HangingWire:
-    """One span, wire and load case between its clamps: the exact catenary, its regular stations and its points."""
+    def blowout_m(self, xyz, stations: StackedStations) -> np.ndarray:
+        """Largest horizontal distance of each wire from its clamps' vertical plane [m]; exactly 0 without blowout.
 
-    def __init__(self, row, station_m: float):
-        self.row = row
-        self.start = np.array([row["x0"], row["y0"], row["z0"]], dtype=float)
-        self.end = np.array([row["x1"], row["y1"], row["z1"]], dtype=float)
-        s, dz = float(np.hypot(*(self.end - self.start)[:2])), float(self.end[2] - self.start[2])
-        self.span_m = s
-        self.h = float(row["horizontal_tension_n"])
-        self.w, self.phi = float(row["resultant_n_m"]), float(row["blowout_rad"])
-        self.side = float(row["side"])
-        self.geometry = span_geometry(s, dz, self.h, self.w, self.phi)
-        self.low_m = float(self.geometry.low_point_m)  # the wire's lowest point, also under wind on an inclined span
-        self.stations = conductor_stations(s, station_m, self.low_m)
-
-    def at(self, stations_m):
-        return conductor_points(self.start, self.end, self.h, self.w, self.phi, stations_m, side=self.side)
-
-    def profile(self, stations) -> ConductorProfile:
-        row, start, end, geometry = self.row, self.start, self.end, self.geometry
-        xyz = self.at(stations)
-        across = np.array([end[1] - start[1], start[0] - end[0]]) / self.span_m  # horizontal unit normal of the chord
-        return ConductorProfile(
-            span_id=row["span_id"], section_id=row["section_id"], load_case=row["load_case"],
-            stations_m=stations, xyz=xyz, horizontal_tension_n=self.h,
-            max_tension_n=float(geometry.max_tension_n), sag_m=float(geometry.sag_m),
-            low_point_m=self.low_m, catenary_m=float(geometry.catenary_m), blowout_deg=float(row["blowout_deg"]),
-            wire=str(row.get("wire", "")), swung_sag_m=float(geometry.swung_sag_m),
-            blowout_m=_blowout_m(xyz, start, across, self.phi))
-
-
-def _blowout_m(xyz, start, across, blowout_rad) -> float:
-    """Largest horizontal distance of the wire from its clamps' vertical plane [m]; exactly 0 without blowout."""
-    if blowout_rad == 0.0:
-        return 0.0  # the wire hangs in that plane: the sum would leave rounding (1e-10 m)
-    return float(np.max(np.abs((xyz[:, :2] - start[:2]) @ across)))
+        Without blowout the wire hangs in that plane, and the sum would leave rounding (1e-10 m).
+        """
+        wire = stations.wire
+        across = np.column_stack([self.end[:, 1] - self.start[:, 1], self.start[:, 0] - self.end[:, 0]])
+        across /= self.span_m[:, None]                 # horizontal unit normal of the chord
+        offset = np.abs((xyz[:, 0] - self.start[wire, 0]) * across[wire, 0]
+                        + (xyz[:, 1] - self.start[wire, 1]) * across[wire, 1])
+        reach = np.maximum.reduceat(offset, stations.bounds[:-1]) if len(offset) else np.zeros(0)
+        return np.where(self.phi == 0.0, 0.0, reach)
