@@ -178,7 +178,7 @@ def exact_minimum_stations(stations_m, grid_uv, clearance_m):
     return np.unique(np.concatenate([pieces, vertex]))
 
 
-def exact_minimum_stations_stacked(stations, grid_uv, clearance_m):
+def exact_minimum_stations_stacked(stations, grid_uv, clearance_m, with_source=False):
     """:func:`exact_minimum_stations` of many wires at once, on stacked stations.
 
     Parameters
@@ -192,12 +192,16 @@ def exact_minimum_stations_stacked(stations, grid_uv, clearance_m):
         ``clearance_m(stations_m, wire) -> g``: that wire's elevation minus
         the bilinear terrain there [m] (NaN over nodata). It is called once,
         for every wire's piece ends and middles.
+    with_source : bool, default False
+        Also return, for each station, its place among the points given to
+        ``clearance_m`` (-1 for a vertex, a station not asked there), so a
+        caller can keep what it computed for them.
 
     Returns
     -------
-    StackedStations
+    StackedStations, or (StackedStations, numpy.ndarray of int)
         Each wire's stations, equal to :func:`exact_minimum_stations` of
-        that wire alone.
+        that wire alone, and with ``with_source`` their places as above.
 
     Notes
     -----
@@ -219,7 +223,10 @@ def exact_minimum_stations_stacked(stations, grid_uv, clearance_m):
     p = pieces.values
     vertex, keep = _vertices(p[:-1], p[1:], g[ends[:-1]], g[np.maximum(middles, 0)], g[ends[1:]])
     keep &= middles >= 0
-    return pieces.with_extra(vertex[keep], pieces.wire[:-1][keep])
+    result, source = pieces.with_extra(vertex[keep], pieces.wire[:-1][keep], with_source=True)
+    if not with_source:
+        return result
+    return result, np.where(source < len(p), ends[np.minimum(source, len(p) - 1)], -1)
 
 
 def _ends_and_middles(pieces):

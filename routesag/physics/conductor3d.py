@@ -35,6 +35,9 @@ from .stacked import StackedStations
 __all__ = ["swung_span", "conductor_points", "conductor_stations", "conductor_stations_stacked", "span_geometry",
            "SpanGeometry"]
 
+#: Stations evaluated together in :func:`conductor_points` (their temporaries then stay in the CPU cache).
+_CHUNK = 32768
+
 
 def swung_span(span_m, dz_m, blowout_rad):
     """Span and height difference measured in the swung plane.
@@ -85,7 +88,7 @@ def _swung_axes(start_xyz, end_xyz, blowout_rad, side):
 
 
 def conductor_points(start_xyz, end_xyz, horizontal_tension_n, resultant_n_m, blowout_rad, stations_m, side=1.0,
-                     wire=None):
+                     wire=None, plan_only=False):
     """World coordinates of the wire at given stations along the span, or of many spans' wires at once.
 
     Parameters
@@ -109,10 +112,13 @@ def conductor_points(start_xyz, end_xyz, horizontal_tension_n, resultant_n_m, bl
     wire : array-like of int, optional
         For K wires at once: the wire (row of the parameters) of each
         station, e.g. :attr:`routesag.physics.stacked.StackedStations.wire`.
+    plan_only : bool, default False
+        Return x, y only (the same values); the catenary is then evaluated
+        only for wires blown out of their vertical plane.
 
     Returns
     -------
-    numpy.ndarray, shape (N, 3)
+    numpy.ndarray, shape (N, 3), or (N, 2) with ``plan_only``
         x, y, z of the wire [m]. Stations 0 and S return the attachment
         points exactly. A point depends only on its station and its wire's
         parameters, whatever else is asked in the same call.
@@ -124,7 +130,8 @@ def conductor_points(start_xyz, end_xyz, horizontal_tension_n, resultant_n_m, bl
     ``A + x' e1 + z'(x') e2`` with ``z'`` the catenary in the swung frame,
     ``z' = 2c sinh((x' - 2 x'_m)/2c) sinh(x'/2c)`` as in
     :func:`routesag.physics.catenary.catenary_z` with its low point ``x'_m``
-    found once per wire.
+    found once per wire. Without blowout ``e2`` is vertical, so the plan
+    position is ``A + x' e1`` exactly.
 
     References
     ----------
@@ -140,16 +147,28 @@ def conductor_points(start_xyz, end_xyz, horizontal_tension_n, resultant_n_m, bl
     e1, e2, span_m, span_swung, dz_swung = _swung_axes(start, end, phi, side)
     catenary_m = np.broadcast_to(np.asarray(horizontal_tension_n, dtype=float) / np.asarray(resultant_n_m, dtype=float),
                                  (n,))
-    two_c = (2.0 * catenary_m)[wire]
-    x_swung = stations * (span_swung / span_m)[wire]
-    z_swung = two_c * np.sinh((x_swung - (2.0 * low_point_x(span_swung, dz_swung, catenary_m))[wire]) / two_c) \
-        * np.sinh(x_swung / two_c)
-    points = start[wire] + x_swung[:, None] * e1[wire] + z_swung[:, None] * e2[wire]
-    tolerance = (1e-9 * np.maximum(span_m, 1.0))[wire]
-    at_start = np.abs(stations) <= tolerance
-    at_end = np.abs(stations - span_m[wire]) <= tolerance
-    points[at_start] = start[wire[at_start]]
-    points[at_end] = end[wire[at_end]]
+    two_c, two_low = 2.0 * catenary_m, 2.0 * low_point_x(span_swung, dz_swung, catenary_m)
+    ratio, tolerance = span_swung / span_m, 1e-9 * np.maximum(span_m, 1.0)
+    axes = 2 if plan_only else 3
+    points = np.empty((len(stations), axes))
+    for a in range(0, len(stations), _CHUNK):  # chunks keep the temporaries in cache
+        s, k = stations[a:a + _CHUNK], wire[a:a + _CHUNK]
+        out = points[a:a + _CHUNK]
+        x_swung = s * ratio[k]
+        for axis in range(axes):  # one coordinate at a time: gathers of flat arrays are several times faster
+            out[:, axis] = start[:, axis][k] + x_swung * e1[:, axis][k]
+        blown = np.flatnonzero(phi[k] != 0.0) if plan_only else slice(None)
+        x_blown, k_blown = x_swung[blown], k[blown]
+        c2 = two_c[k_blown]
+        z_swung = c2 * np.sinh((x_blown - two_low[k_blown]) / c2) * np.sinh(x_blown / c2)
+        for axis in range(axes):
+            out[blown, axis] += z_swung * e2[:, axis][k_blown]
+        span_k, tolerance_k = span_m[k], tolerance[k]
+        near = np.flatnonzero(np.minimum(np.abs(s), np.abs(s - span_k)) <= tolerance_k)
+        at_start = near[np.abs(s[near]) <= tolerance_k[near]]
+        at_end = near[np.abs(s[near] - span_k[near]) <= tolerance_k[near]]
+        out[at_start] = start[k[at_start], :axes]
+        out[at_end] = end[k[at_end], :axes]
     return points
 
 

@@ -59,10 +59,11 @@ class StackedStations:
         return cls(np.concatenate(arrays) if arrays else np.empty(0), bounds)
 
     @classmethod
-    def gather(cls, values, wire, n_wires: int) -> "StackedStations":
+    def gather(cls, values, wire, n_wires: int, with_source: bool = False):
         """Sorted distinct stations of each wire from ``values`` in any order, ``wire`` naming each one's wire.
 
-        The result equals ``np.unique`` of each wire's values, wire by wire.
+        The result equals ``np.unique`` of each wire's values, wire by wire. With ``with_source``, also the
+        index in ``values`` of each station kept.
         """
         values = np.asarray(values, dtype=float)
         wire = np.asarray(wire, dtype=np.int64)
@@ -71,12 +72,18 @@ class StackedStations:
         fresh = np.ones(len(v), dtype=bool)
         fresh[1:] = (w[1:] != w[:-1]) | (v[1:] != v[:-1])
         v, w = v[fresh], w[fresh]
-        return cls(v, np.concatenate([[0], np.cumsum(np.bincount(w, minlength=n_wires), dtype=np.int64)]))
+        stations = cls(v, np.concatenate([[0], np.cumsum(np.bincount(w, minlength=n_wires), dtype=np.int64)]))
+        return (stations, order[fresh]) if with_source else stations
 
-    def with_extra(self, values, wire) -> "StackedStations":
-        """These stations and ``values`` (of wires ``wire``), sorted and distinct per wire."""
+    def with_extra(self, values, wire, with_source: bool = False):
+        """These stations and ``values`` (of wires ``wire``), sorted and distinct per wire.
+
+        With ``with_source``, also where each station comes from: ``i < len(self.values)`` is this one's
+        ``values[i]``, else the added ``values[i - len(self.values)]``.
+        """
         return StackedStations.gather(np.concatenate([self.values, values]),
-                                      np.concatenate([self.wire, np.asarray(wire, dtype=np.int64)]), self.n_wires)
+                                      np.concatenate([self.wire, np.asarray(wire, dtype=np.int64)]), self.n_wires,
+                                      with_source)
 
 
 def _wire_major_order(values, wire):

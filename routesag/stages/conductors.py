@@ -42,21 +42,29 @@ class TerrainView:
     sampler: object
     crs: object
 
-    def exact_stations(self, stations: StackedStations, wire_at, window_group) -> StackedStations:
-        """Stations plus the grid-line crossings and quadratic vertices of :mod:`routesag.physics.bilinear`.
+    def exact_stations(self, stations: StackedStations, wires: "HangingWires"):
+        """Stations plus the grid-line crossings and quadratic vertices of :mod:`routesag.physics.bilinear`,
+        and the wires' points there (working CRS).
 
-        ``wire_at(stations, wire) -> (n, 3)`` gives the wires' points in the working CRS; wires with the same
-        ``window_group`` (the wires and load cases of one span) are sampled together, from one window.
+        The wires of one span (its wires and load cases, consecutive) are sampled together, from one window.
         """
+        asked = {}
+
         def grid_uv(s, wire):
-            xyz = wire_at(s, wire)
-            return self.sampler.grid_coords(xyz[:, 0], xyz[:, 1], crs=self.crs)
+            xy = wires.at(s, wire, plan_only=True)
+            return self.sampler.grid_coords(xy[:, 0], xy[:, 1], crs=self.crs)
 
         def clearance(s, wire):
-            xyz = wire_at(s, wire)
-            return xyz[:, 2] - self.sample_in_groups(xyz, window_group[wire])
+            asked["xyz"] = xyz = wires.at(s, wire)
+            return xyz[:, 2] - self.sample_in_groups(xyz, wires.span_group[wire])
 
-        return exact_minimum_stations_stacked(stations, grid_uv, clearance)
+        found, source = exact_minimum_stations_stacked(stations, grid_uv, clearance, with_source=True)
+        xyz = np.empty((len(found.values), 3))
+        known, vertex = np.flatnonzero(source >= 0), np.flatnonzero(source < 0)
+        for axis in range(3):
+            xyz[known, axis] = asked["xyz"][:, axis][source[known]]
+        xyz[vertex] = wires.at(found.values[vertex], found.wire[vertex])
+        return found, xyz
 
     def sample_in_groups(self, xyz, group):
         """Terrain under points [m], one sampler call per run of equal ``group`` (its window is read once)."""
@@ -141,10 +149,10 @@ def span_profiles(cases, station_m: float, terrain: TerrainView | None = None) -
     consecutive) read the terrain together, so each span costs one window read.
     """
     wires = HangingWires(cases, station_m)
-    stations = wires.stations
-    if terrain is not None:
-        stations = terrain.exact_stations(stations, wires.at, wires.span_group)
-    return wires.profiles(stations)
+    if terrain is None:
+        stations = wires.stations
+        return wires.profiles(stations, wires.at(stations.values, stations.wire))
+    return wires.profiles(*terrain.exact_stations(wires.stations, wires))
 
 
 class HangingWires:
@@ -168,13 +176,12 @@ class HangingWires:
         span_id = list(cases["span_id"])
         self.span_group = np.cumsum([k > 0 and span_id[k] != span_id[k - 1] for k in range(len(span_id))])
 
-    def at(self, stations_m, wire):
+    def at(self, stations_m, wire, plan_only=False):
         return conductor_points(self.start, self.end, self.h, self.w, self.phi, stations_m, side=self.side,
-                                wire=wire)
+                                wire=wire, plan_only=plan_only)
 
-    def profiles(self, stations: StackedStations) -> list[ConductorProfile]:
-        """One profile per entry; its stations and points are slices of the stacked arrays."""
-        xyz = self.at(stations.values, stations.wire)
+    def profiles(self, stations: StackedStations, xyz) -> list[ConductorProfile]:
+        """One profile per entry, with the wires' points ``xyz`` at ``stations``; its arrays are slices of these."""
         blowout = self.blowout_m(xyz, stations)
         cases, geometry = self.cases, self.geometry
         wires = cases["wire"] if "wire" in cases else [""] * len(self.span_m)
