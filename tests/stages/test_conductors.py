@@ -52,7 +52,8 @@ def test_low_point_is_the_lowest_point_of_the_wire_under_wind(tmp_path):
 
 
 def test_span_batched_profiles_equal_the_per_span_ones(tmp_path):
-    """span_profiles (one terrain query per span and step) gives exactly span_profile's stations and points."""
+    """span_profiles (a section at once, the terrain read span by span) gives exactly span_profile's stations and
+    points (one profile at a time)."""
     import rasterio
     from rasterio.transform import from_origin
 
@@ -75,9 +76,10 @@ def test_span_batched_profiles_equal_the_per_span_ones(tmp_path):
                             station_m=1.5, extra=wires)
     data = compute(project, ("wire_spans", "tensions", "structure_loads", "work_crs"))
     try:
-        rows = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"]).to_dict("records")
+        cases = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
+        rows = [dict(zip(cases, values)) for values in zip(*cases.values())]
         view = TerrainView(data["terrain"], data["work_crs"])
-        batched = span_profiles(rows, 1.5, view)
+        batched = span_profiles(cases, 1.5, view)
         single = [span_profile(row, 1.5, view) for row in rows]
     finally:
         data["terrain"].close()
