@@ -249,8 +249,10 @@ class TerrainSampler:
         """
         xr, yr = self._to_raster_xy(x, y, crs)
         col_f, row_f = self._pixel_coords(xr, yr)
-        out = np.full(col_f.shape, np.nan)
         inside = self._inside(col_f, row_f)
+        if col_f.ndim == 1 and inside.all():
+            return self._interpolate(col_f, row_f)
+        out = np.full(col_f.shape, np.nan)
         if inside.any():
             out[inside] = self._interpolate(col_f[inside], row_f[inside])
         return out
@@ -392,11 +394,12 @@ class TerrainSampler:
         r0 = np.clip(np.floor(v).astype(np.int64), 0, max(height - 2, 0))
         span_cells = (np.ptp(r0) + 2) * (np.ptp(c0) + 2)
         sparse = span_cells > self.sparse_min_cells and span_cells > self.sparse_cells_per_point * u.size
-        if span_cells <= self.max_window_cells and not sparse:
+        if span_cells <= min(self.max_window_cells, self.hold_max_cells) and not sparse:
             return self._interpolate_in_window(u, v, c0, r0)
-        # Too spread out for one read (or a few far-apart points, such as the
-        # structures of a long line): group the points by square tile.
-        tile = self.sparse_tile if sparse else max(int(math.isqrt(self.max_window_cells)) - 1, 1)
+        # Too spread out for one read: a few far-apart points (the structures of a long line) by small tiles;
+        # a long corridor (a tension section's wires) by tiles whose windows can be held, so only the cells
+        # near the points are read and never the whole box around them.
+        tile = self.sparse_tile if sparse else self._corridor_tile()
         tile_key = (r0 // tile) * (width // tile + 1) + (c0 // tile)
         out = np.empty(u.shape)
         order = np.argsort(tile_key, kind="stable")
@@ -404,6 +407,12 @@ class TerrainSampler:
         for group in np.split(order, starts[1:]):
             out[group] = self._interpolate_in_window(u[group], v[group], c0[group], r0[group])
         return out
+
+    def _corridor_tile(self):
+        """Side of the square tiles a wide point set is read by [cells]: its window, grown by the hold margin,
+        stays within ``hold_max_cells`` (and ``max_window_cells``)."""
+        side = min(math.isqrt(self.hold_max_cells) - 2 * self.hold_margin_cells, math.isqrt(self.max_window_cells))
+        return max(side - 1, 1)
 
     def _interpolate_in_window(self, u, v, c0, r0):
         row_off, col_off = int(r0.min()), int(c0.min())

@@ -278,3 +278,24 @@ def test_held_windows_give_the_same_samples_with_fewer_reads(tmp_path, rng):
         assert plain.sample_window_count == 4
         assert holding.sample_window_count == 1  # the first window, grown by the margin, serves the rest
     assert holding.reference().hold_windows == 4
+
+
+def test_a_long_corridor_is_read_by_tiles_near_its_points(tmp_path, rng):
+    # A diagonal corridor (a tension section's wires) across a raster: its bounding box is the whole raster, but
+    # only tiles near the points are read, each small enough to be held; the samples equal one-window reads.
+    data = rng.uniform(100.0, 140.0, size=(600, 600)).astype("float32")
+    path = write_raster(tmp_path / "wide.tif", data)
+    t = rng.uniform(0.0, 1.0, 20_000)
+    x = X0 + 10.0 + t * 1180.0 + rng.uniform(-4.0, 4.0, t.size)
+    y = Y0 - 10.0 - t * 1180.0 + rng.uniform(-4.0, 4.0, t.size)
+    with TerrainSampler(path) as whole, TerrainSampler(path, hold_windows=16) as tiled:
+        whole.hold_max_cells = whole.max_window_cells  # the old way: one window around everything
+        tiled.hold_max_cells = 100 * 100
+        tiled.hold_margin_cells = 4
+        read = []
+        original_read = tiled._read
+        tiled._read = lambda window: read.append(window) or original_read(window)
+        np.testing.assert_array_equal(tiled.sample(x, y), whole.sample(x, y))
+        assert whole.sample_window_count == 1
+    assert len(read) > 1 and all(w.width * w.height <= 100 * 100 for w in read)
+    assert sum(w.width * w.height for w in read) < 0.25 * 600 * 600
