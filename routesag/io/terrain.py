@@ -250,7 +250,7 @@ class TerrainSampler:
         xr, yr = self._to_raster_xy(x, y, crs)
         col_f, row_f = self._pixel_coords(xr, yr)
         inside = self._inside(col_f, row_f)
-        if col_f.ndim == 1 and inside.all():
+        if col_f.ndim == 1 and col_f.size and inside.all():
             return self._interpolate(col_f, row_f)
         out = np.full(col_f.shape, np.nan)
         if inside.any():
@@ -390,12 +390,14 @@ class TerrainSampler:
         # Centre-based coordinates, clamped onto the outermost centres.
         u = np.clip(col_f - 0.5, 0.0, width - 1.0)
         v = np.clip(row_f - 0.5, 0.0, height - 1.0)
-        c0 = np.clip(np.floor(u).astype(np.int64), 0, max(width - 2, 0))
-        r0 = np.clip(np.floor(v).astype(np.int64), 0, max(height - 2, 0))
-        span_cells = (np.ptp(r0) + 2) * (np.ptp(c0) + 2)
+        # u, v >= 0, so truncation is the floor
+        c0 = np.minimum(u.astype(np.int64), max(width - 2, 0))
+        r0 = np.minimum(v.astype(np.int64), max(height - 2, 0))
+        box = (int(r0.min()), int(r0.max()), int(c0.min()), int(c0.max()))
+        span_cells = (box[1] - box[0] + 2) * (box[3] - box[2] + 2)
         sparse = span_cells > self.sparse_min_cells and span_cells > self.sparse_cells_per_point * u.size
         if span_cells <= min(self.max_window_cells, self.hold_max_cells) and not sparse:
-            return self._interpolate_in_window(u, v, c0, r0)
+            return self._interpolate_in_window(u, v, c0, r0, box)
         # Too spread out for one read: a few far-apart points (the structures of a long line) by small tiles;
         # a long corridor (a tension section's wires) by tiles whose windows can be held, so only the cells
         # near the points are read and never the whole box around them.
@@ -414,10 +416,11 @@ class TerrainSampler:
         side = min(math.isqrt(self.hold_max_cells) - 2 * self.hold_margin_cells, math.isqrt(self.max_window_cells))
         return max(side - 1, 1)
 
-    def _interpolate_in_window(self, u, v, c0, r0):
-        row_off, col_off = int(r0.min()), int(c0.min())
-        n_rows = min(int(r0.max()) + 2, self._ds.height) - row_off
-        n_cols = min(int(c0.max()) + 2, self._ds.width) - col_off
+    def _interpolate_in_window(self, u, v, c0, r0, box=None):
+        """Bilinear values from one window; ``box`` = (r0 min, r0 max, c0 min, c0 max) when already known."""
+        row_off, row_hi, col_off, col_hi = box or (int(r0.min()), int(r0.max()), int(c0.min()), int(c0.max()))
+        n_rows = min(row_hi + 2, self._ds.height) - row_off
+        n_cols = min(col_hi + 2, self._ds.width) - col_off
         z = self._window_values(Window(col_off, row_off, n_cols, n_rows))
         r, c = r0 - row_off, c0 - col_off
         r1, c1 = np.minimum(r + 1, n_rows - 1), np.minimum(c + 1, n_cols - 1)

@@ -205,14 +205,13 @@ def exact_minimum_stations_stacked(stations, grid_uv, clearance_m, with_source=F
 
     Notes
     -----
-    The callables are given points grouped by wire, in wire order (all of
+    ``clearance_m`` is given points grouped by wire, in wire order (all of
     wire 0's, then wire 1's, ...), so a caller can read the terrain under
-    neighbouring wires together.
+    neighbouring wires together; ``grid_uv`` needs no terrain and gets
+    them in any order.
     """
     s, wire = stations.values, stations.wire
-    crossing, axis, level, slope, chord = _crossings(s, *grid_uv(s, wire), stations.neighbours())
-    order = np.argsort(chord, kind="stable")      # u and v crossings together, wire by wire
-    crossing, axis, level, slope, chord = (a[order] for a in (crossing, axis, level, slope, chord))
+    crossing, axis, level, slope, chord = _crossings(s, *grid_uv(s, wire), wire[1:] == wire[:-1])
     crossing_wire = wire[chord]
     if len(crossing):
         crossing = _onto_path(crossing, axis, level, slope, grid_uv(crossing, crossing_wire),
@@ -273,9 +272,12 @@ def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):
         bounds = np.searchsorted(wire, np.arange(n + 1))
         return [values[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
 
-    def stacked_uv(values, wire):
-        uv = grid_uv(per_wire(values, wire))
-        return np.concatenate([u for u, _ in uv]), np.concatenate([v for _, v in uv])
+    def stacked_uv(values, wire):  # asked in any order: sorted by wire for the lists, and back
+        order = np.argsort(wire, kind="stable")
+        uv = grid_uv(per_wire(values[order], wire[order]))
+        u, v = np.empty(len(values)), np.empty(len(values))
+        u[order], v[order] = np.concatenate([u for u, _ in uv]), np.concatenate([v for _, v in uv])
+        return u, v
 
     def stacked_clearance(values, wire):
         return np.concatenate(clearance_m(per_wire(values, wire)))

@@ -65,10 +65,7 @@ class StackedStations:
         The result equals ``np.unique`` of each wire's values, wire by wire. With ``with_source``, also the
         index in ``values`` of each station kept.
         """
-        values = np.asarray(values, dtype=float)
-        wire = np.asarray(wire, dtype=np.int64)
-        order = _wire_major_order(values, wire)
-        v, w = values[order], wire[order]
+        order, v, w = _wire_major_order(np.asarray(values, dtype=float), np.asarray(wire, dtype=np.int64))
         fresh = np.ones(len(v), dtype=bool)
         fresh[1:] = (w[1:] != w[:-1]) | (v[1:] != v[:-1])
         v, w = v[fresh], w[fresh]
@@ -87,9 +84,10 @@ class StackedStations:
 
 
 def _wire_major_order(values, wire):
-    """Indices that sort by wire, then by value (exactly, also where values of one wire lie within rounding)."""
+    """Indices that sort by wire, then by value (exactly, also where values of one wire lie within rounding),
+    and the values and wires in that order."""
     if not len(values):
-        return np.arange(0)
+        return np.arange(0), values, wire
     if not np.isfinite(values).all():
         raise ValueError("stations must be finite")
     # One float key: each wire's values shifted past the previous wire's by more than their whole range, so
@@ -102,4 +100,5 @@ def _wire_major_order(values, wire):
     for k in np.unique(w[swapped]):
         a, b = np.searchsorted(w, [k, k + 1])
         order[a:b] = order[a:b][np.argsort(values[order[a:b]], kind="stable")]
-    return order
+        v[a:b] = values[order[a:b]]
+    return order, v, w

@@ -60,9 +60,9 @@ class TerrainView:
 
         found, source = exact_minimum_stations_stacked(stations, grid_uv, clearance, with_source=True)
         xyz = np.empty((len(found.values), 3))
-        known, vertex = np.flatnonzero(source >= 0), np.flatnonzero(source < 0)
+        known, vertex = np.maximum(source, 0), np.flatnonzero(source < 0)
         for axis in range(3):
-            xyz[known, axis] = asked["xyz"][:, axis][source[known]]
+            xyz[:, axis] = asked["xyz"][:, axis][known]
         xyz[vertex] = wires.at(found.values[vertex], found.wire[vertex])
         return found, xyz
 
@@ -204,10 +204,12 @@ class HangingWires:
 
         Without blowout the wire hangs in that plane, and the sum would leave rounding (1e-10 m).
         """
-        wire = stations.wire
+        def per_station(values):
+            return np.repeat(values, stations.counts)
+
         across = np.column_stack([self.end[:, 1] - self.start[:, 1], self.start[:, 0] - self.end[:, 0]])
         across /= self.span_m[:, None]                 # horizontal unit normal of the chord
-        offset = np.abs((xyz[:, 0] - self.start[wire, 0]) * across[wire, 0]
-                        + (xyz[:, 1] - self.start[wire, 1]) * across[wire, 1])
+        offset = np.abs((xyz[:, 0] - per_station(self.start[:, 0])) * per_station(across[:, 0])
+                        + (xyz[:, 1] - per_station(self.start[:, 1])) * per_station(across[:, 1]))
         reach = np.maximum.reduceat(offset, stations.bounds[:-1]) if len(offset) else np.zeros(0)
         return np.where(self.phi == 0.0, 0.0, reach)
