@@ -472,6 +472,8 @@ class TerrainSampler:
             z[z == self._declared_nodata] = np.nan
         self.sample_window_count += 1
         self.last_window = window
+        if (self._scale, self._offset, self.z_factor) == (1.0, 0.0, 1.0):
+            return self._mask_implausible(z, z)  # stored in metres already: no copy
         return self._mask_implausible(z, (z * self._scale + self._offset) * self.z_factor)
 
     def _mask_implausible(self, stored, metres):

@@ -17,6 +17,10 @@ metre or more.
    through the clearance at its two ends and its middle, when that quadratic
    opens upwards and the vertex lies inside the piece.
 
+:func:`exact_minimum_stations_stacked` does the same for many wires held in
+one array (a tension section's spans, wires and load cases) and gives each
+wire the stations it would get alone, so the bound below holds for each.
+
 On each piece the terrain is exactly quadratic along a straight path, so the
 three-point quadratic differs from the clearance only by the wire's departure
 from its local parabola, at most ``e = M3 d^3 / (72 sqrt 3)`` with

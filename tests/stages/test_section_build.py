@@ -157,3 +157,12 @@ def test_stacked_stations_gather_equals_unique_per_wire():
         np.testing.assert_array_equal(got, np.unique(values[wire == k]))
     np.testing.assert_array_equal(values[shuffle][source], stacked.values)
     assert stacked.counts[6] == 0
+
+
+def test_a_section_without_cases_gives_no_profiles(tmp_path):
+    path = tmp_path / "terrain.tif"
+    rough_raster(path)
+    empty = {name: [] for name in section_cases(np.array([X0, Y0, 0.0]))[0]}
+    with TerrainSampler(path, hold_windows=16) as sampler:
+        assert span_profiles(empty, 1.0, TerrainView(sampler, CRS)) == []
+        assert sampler.sample_window_count == 0
