@@ -195,7 +195,7 @@ def exact_minimum_stations_stacked(stations, grid_uv, clearance_m, with_source=F
     clearance_m : callable
         ``clearance_m(stations_m, wire) -> g``: that wire's elevation minus
         the bilinear terrain there [m] (NaN over nodata). It is called once,
-        for every wire's piece ends and middles.
+        for every wire's piece ends and middles (a wire's last end twice).
     with_source : bool, default False
         Also return, for each station, its place among the points given to
         ``clearance_m`` (-1 for a vertex, a station not asked there), so a
@@ -221,36 +221,30 @@ def exact_minimum_stations_stacked(stations, grid_uv, clearance_m, with_source=F
         crossing = _onto_path(crossing, axis, level, slope, grid_uv(crossing, crossing_wire),
                               s[stations.bounds[:-1][crossing_wire]], s[stations.bounds[1:][crossing_wire] - 1])
     pieces = stations.with_extra(crossing, crossing_wire)
-    ends, middles, asked, asked_wire = _ends_and_middles(pieces)
+    p, wire = pieces.values, pieces.wire
+    joined = wire[1:] == wire[:-1]
+    asked, asked_wire = _ends_and_middles(p, wire, joined)
     g = clearance_m(asked, asked_wire)
-    p = pieces.values
-    vertex, keep = _vertices(p[:-1], p[1:], g[ends[:-1]], g[np.maximum(middles, 0)], g[ends[1:]])
-    keep &= middles >= 0
-    result, source = pieces.with_extra(vertex[keep], pieces.wire[:-1][keep], with_source=True)
+    g_ends = g[0::2]
+    vertex, keep = _vertices(p[:-1], p[1:], g_ends[:-1], g[1::2], g_ends[1:])
+    keep &= joined
+    result, source = pieces.with_extra(vertex[keep], wire[:-1][keep], with_source=True)
     if not with_source:
         return result
-    return result, np.where(source < len(p), ends[np.minimum(source, len(p) - 1)], -1)
+    return result, np.where(source < len(p), 2 * source, -1)
 
 
-def _ends_and_middles(pieces):
-    """Each wire's piece ends then their middles, wire after wire; where each end and middle sits in that list.
-
-    Returns ``(ends, middles, asked, asked_wire)``: ``asked[ends[i]]`` is
-    ``pieces.values[i]``; ``asked[middles[i]]`` is the middle of the piece
-    from ``values[i]`` to ``values[i + 1]`` (-1 where they belong to two wires).
-    """
-    p, wire, count = pieces.values, pieces.wire, pieces.counts
-    size = np.maximum(2 * count - 1, 0)
-    first_asked = np.cumsum(size) - size
-    ends = first_asked[wire] + (np.arange(len(p)) - pieces.bounds[:-1][wire])
-    joined = wire[1:] == wire[:-1]
-    middles = np.where(joined, ends[:-1] + count[wire[:-1]], -1)
-    asked = np.empty(int(size.sum()))
+def _ends_and_middles(p, wire, joined):
+    """Each piece end followed by the middle of the piece it starts: ``asked[2 i]`` is ``p[i]``, ``asked[2 i + 1]``
+    the middle of ``p[i]`` and ``p[i + 1]``, and their wires. Where one wire ends and the next begins, the middle
+    is taken as the last end again (a station of that wire, whose piece counts for nothing)."""
+    middles = (p[:-1] + p[1:]) / 2.0
+    middles[~joined] = p[:-1][~joined]
+    asked = np.empty(max(2 * len(p) - 1, 0))
     asked_wire = np.empty(len(asked), dtype=np.int64)
-    asked[ends], asked_wire[ends] = p, wire
-    inner = middles[joined]
-    asked[inner], asked_wire[inner] = ((p[:-1] + p[1:]) / 2.0)[joined], wire[:-1][joined]
-    return ends, middles, asked, asked_wire
+    asked[0::2], asked[1::2] = p, middles
+    asked_wire[0::2], asked_wire[1::2] = wire, wire[:-1]
+    return asked, asked_wire
 
 
 def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):

@@ -107,25 +107,27 @@ def span_cases(wire_spans, tensions, structure_loads) -> dict[str, np.ndarray]:
     their order. Clamps (start x0, y0, z0; end x1, y1, z1) come from ``structure_loads``, where a suspension
     string has swung them out under the load case; a clamp missing there is NaN.
     """
+    def keys(frame, *names):  # plain Python values: zipping Series is several times slower
+        return list(zip(*(frame[name].to_numpy().tolist() for name in names)))
+
     cases_of = {}
-    for j, key in enumerate(zip(tensions["section_id"], tensions["wire"])):
+    for j, key in enumerate(keys(tensions, "section_id", "wire")):
         cases_of.setdefault(key, []).append(j)
-    pairs = [(i, j) for i, key in enumerate(zip(wire_spans["section_id"], wire_spans["wire"]))
-             for j in cases_of.get(key, ())]
+    pairs = [(i, j) for i, key in enumerate(keys(wire_spans, "section_id", "wire")) for j in cases_of.get(key, ())]
     span_rows, case_rows = (np.array(rows, dtype=np.int64) for rows in zip(*pairs)) if pairs else ([], [])
     columns = {name: wire_spans[name].to_numpy()[span_rows]
                for name in ("span_id", "section_id", "wire", "line_id", "from_id", "to_id")}
     columns.update({name: tensions[name].to_numpy()[case_rows] for name in
                     ("load_case", "horizontal_tension_n", "resultant_n_m", "blowout_rad", "blowout_deg", "side")})
-    keys = list(zip(structure_loads["line_id"], structure_loads["structure_id"], structure_loads["wire"],
-                    structure_loads["load_case"]))
-    clamp_row = {key: k for k, key in enumerate(keys)}
-    if len(clamp_row) != len(keys):
+    clamp_keys = keys(structure_loads, "line_id", "structure_id", "wire", "load_case")
+    clamp_row = {key: k for k, key in enumerate(clamp_keys)}
+    if len(clamp_row) != len(clamp_keys):
         raise ValueError("structure_loads holds two rows for one structure, wire and load case")
-    clamps = np.vstack([structure_loads[["x", "y", "z"]].to_numpy(dtype=float), np.full((1, 3), np.nan)])
+    clamps = np.column_stack([structure_loads[name].to_numpy(dtype=float) for name in ("x", "y", "z")])
+    clamps = np.vstack([clamps, np.full((1, 3), np.nan)])   # the last row: a clamp missing
     for end, structure in (("0", "from_id"), ("1", "to_id")):
-        rows = [clamp_row.get(key, -1) for key in zip(columns["line_id"], columns[structure], columns["wire"],
-                                                      columns["load_case"])]
+        rows = [clamp_row.get(key, -1) for key in zip(*(columns[name].tolist() for name in
+                                                         ("line_id", structure, "wire", "load_case")))]
         xyz = clamps[np.array(rows, dtype=np.int64)]
         columns.update({f"x{end}": xyz[:, 0], f"y{end}": xyz[:, 1], f"z{end}": xyz[:, 2]})
     return columns
