@@ -6,6 +6,7 @@ wire. Per-wire parameters (clamps, tension, load) are arrays indexed by
 ``wire``, so one numpy expression evaluates every wire at every station.
 """
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -65,9 +66,9 @@ class StackedStations:
         The result equals ``np.unique`` of each wire's values, wire by wire. With ``with_source``, also the
         index in ``values`` of each station kept.
         """
-        order, v, w = _wire_major_order(np.asarray(values, dtype=float), np.asarray(wire, dtype=np.int64))
+        order, v, w, same = _wire_major_order(np.asarray(values, dtype=float), np.asarray(wire, dtype=np.int64))
         fresh = np.ones(len(v), dtype=bool)
-        fresh[1:] = (w[1:] != w[:-1]) | (v[1:] != v[:-1])
+        fresh[1:] = ~same | (v[1:] != v[:-1])
         v, w = v[fresh], w[fresh]
         stations = cls(v, np.concatenate([[0], np.cumsum(np.bincount(w, minlength=n_wires), dtype=np.int64)]))
         return (stations, order[fresh]) if with_source else stations
@@ -84,21 +85,24 @@ class StackedStations:
 
 
 def _wire_major_order(values, wire):
-    """Indices that sort by wire, then by value (exactly, also where values of one wire lie within rounding),
-    and the values and wires in that order."""
+    """Indices that sort by wire, then by value (exactly, also where values of one wire lie within rounding);
+    the values and wires in that order, and where consecutive ones share a wire."""
     if not len(values):
-        return np.arange(0), values, wire
-    if not np.isfinite(values).all():
+        return np.arange(0), values, wire, np.zeros(0, dtype=bool)
+    low, high = float(values.min()), float(values.max())
+    if not (math.isfinite(low) and math.isfinite(high)):
         raise ValueError("stations must be finite")
     # One float key: each wire's values shifted past the previous wire's by more than their whole range, so
     # a stable sort of the key orders by wire; the shift's rounding (far below the 1-unit gap) can only swap
     # values of one wire that lie within it, which the check below puts right.
-    low, high = float(values.min()), float(values.max())
     order = np.argsort((values - low) + wire * (high - low + 1.0), kind="stable")
-    v, w = values[order], wire[order]
-    swapped = np.flatnonzero((w[1:] == w[:-1]) & (v[1:] < v[:-1]))
+    v = values[order]
+    counts = np.bincount(wire)
+    w = np.repeat(np.arange(len(counts)), counts)   # wire[order], as the sort grouped them
+    same = w[1:] == w[:-1]
+    swapped = np.flatnonzero(same & (v[1:] < v[:-1]))
     for k in np.unique(w[swapped]):
         a, b = np.searchsorted(w, [k, k + 1])
         order[a:b] = order[a:b][np.argsort(values[order[a:b]], kind="stable")]
         v[a:b] = values[order[a:b]]
-    return order, v, w
+    return order, v, w, same
