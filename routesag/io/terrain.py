@@ -109,7 +109,8 @@ class TerrainSampler:
     sparse_cells_per_point = 256
     sparse_tile = 64
     cache_mb = 64
-    #: Cells added on each side of a window read for interpolation when windows are held (see ``hold_windows``).
+    #: Cells added on each side of a window read for interpolation when windows are held (see ``hold_windows``),
+    #: within the raster blocks the window touches (growing into more blocks would decode them for nothing).
     hold_margin_cells = 48
     #: Largest window that is held [cells]; larger reads are not kept.
     hold_max_cells = 512 * 1024
@@ -442,16 +443,25 @@ class TerrainSampler:
                     and left + window.width <= held.width):
                 self._held.insert(0, self._held.pop(i))
                 return values[top:top + window.height, left:left + window.width]
-        m = self.hold_margin_cells
-        row0, col0 = max(window.row_off - m, 0), max(window.col_off - m, 0)
-        grown = Window(col0, row0, min(window.col_off + window.width + m, self._ds.width) - col0,
-                       min(window.row_off + window.height + m, self._ds.height) - row0)
+        block_rows, block_cols = self._ds.block_shapes[0]
+        row0, row1 = self._grown(window.row_off, window.row_off + window.height, block_rows, self._ds.height)
+        col0, col1 = self._grown(window.col_off, window.col_off + window.width, block_cols, self._ds.width)
+        grown = Window(col0, row0, col1 - col0, row1 - row0)
         if grown.width * grown.height > self.hold_max_cells:
             return self._read(window)
         values = self._read(grown)
         self._held = [(grown, values)] + self._held[:self.hold_windows - 1]
         top, left = window.row_off - row0, window.col_off - col0
         return values[top:top + window.height, left:left + window.width]
+
+    def _grown(self, low, high, block, size):
+        """Cells [low, high) along one axis grown by ``hold_margin_cells`` to be held, but, where the raster's
+        blocks are larger than the margin, not into blocks the read would not decode anyway."""
+        m = self.hold_margin_cells
+        low_m, high_m = max(low - m, 0), min(high + m, size)
+        if block <= m:
+            return low_m, high_m
+        return max(low_m, low // block * block), min(high_m, -(-high // block) * block)
 
     def _read(self, window):
         """Window read as float64 metres, NaN where masked."""
