@@ -299,3 +299,23 @@ def test_a_long_corridor_is_read_by_tiles_near_its_points(tmp_path, rng):
         assert whole.sample_window_count == 1
     assert len(read) > 1 and all(w.width * w.height <= 100 * 100 for w in read)
     assert sum(w.width * w.height for w in read) < 0.25 * 600 * 600
+
+
+def test_held_windows_do_not_grow_into_blocks_the_read_would_not_decode(tmp_path, rng):
+    # A tiled raster (64-cell blocks): points near the corner of one block. The held window grows by the margin
+    # only up to that block's edges, so no neighbouring block is decoded for it; samples stay bit-identical.
+    data = rng.uniform(100.0, 140.0, size=(256, 256)).astype("float32")
+    path = tmp_path / "tiled.tif"
+    with rasterio.open(path, "w", driver="GTiff", width=256, height=256, count=1, dtype="float32", crs="EPSG:32633",
+                       transform=Affine(RES, 0.0, X0, 0.0, -RES, Y0), tiled=True, blockxsize=64,
+                       blockysize=64) as ds:
+        ds.write(data, 1)
+    x, y = interior_points(rng, 100, X0 + 2 * RES * 70, X0 + 2 * RES * 80, Y0 - 2 * RES * 80, Y0 - 2 * RES * 70)
+    with TerrainSampler(path) as plain, TerrainSampler(path, hold_windows=4) as holding:
+        holding.hold_margin_cells = 20
+        np.testing.assert_array_equal(holding.sample(x, y), plain.sample(x, y))
+        window = holding.last_window
+    # the points' cells lie in rows and columns 140..161, within the block 128..191 each way
+    assert (window.row_off, window.col_off) == (128, 128)
+    assert window.row_off + window.height <= 192 and window.col_off + window.width <= 192
+    assert window.height > plain.last_window.height  # it did grow, inside the block
