@@ -76,8 +76,20 @@ def empty_crossings(crs) -> gpd.GeoDataFrame:
 
 
 def station_rules(profiles, crossings, ground_required_m) -> StationField:
-    """(required clearance [m], category) per station of each profile, by key; all profiles in one query."""
+    """(required clearance [m], category) per station of each profile, by key; all profiles in one query.
+
+    Without crossing areas every station is ``ground``: the category arrays are
+    then read-only views of one value, not one string per station.
+    """
+    profiles = list(profiles)
+    if len(crossings) == 0:
+        n = sum(len(p.xyz) for p in profiles)
+        return split_by_profile((np.full(n, float(ground_required_m)), _all_ground(n)), profiles)
     return split_by_profile(classify_points(stacked_xy(profiles), crossings, ground_required_m), profiles)
+
+
+def _all_ground(n: int) -> np.ndarray:
+    return np.broadcast_to(np.array("ground", dtype=object), (n,))
 
 
 def classify_points(xy, crossings, ground_required_m) -> tuple[np.ndarray, np.ndarray]:
@@ -93,9 +105,8 @@ def classify_points(xy, crossings, ground_required_m) -> tuple[np.ndarray, np.nd
         Required clearance outside every crossing [m].
     """
     required = np.full(len(xy), float(ground_required_m))
-    category = np.full(len(xy), "ground", dtype=object)
     if len(xy) == 0 or len(crossings) == 0:
-        return required, category
+        return required, np.full(len(xy), "ground", dtype=object)
     tree = shapely.STRtree(crossings.geometry.values)
     point, area = tree.query(shapely.points(xy), predicate="intersects")
     area_required = crossings["required_m"].to_numpy(dtype=float)[area]
@@ -103,5 +114,8 @@ def classify_points(xy, crossings, ground_required_m) -> tuple[np.ndarray, np.nd
     point, area = point[order], area[order]
     first = np.r_[True, point[1:] != point[:-1]] if len(point) else np.empty(0, bool)
     required[point[first]] = crossings["required_m"].to_numpy(dtype=float)[area[first]]
-    category[point[first]] = crossings["category"].to_numpy(dtype=object)[area[first]]
-    return required, category
+    # the category as an index into ["ground", each area's category]: one gather instead of a string per point
+    names = np.concatenate([np.array(["ground"], dtype=object), crossings["category"].to_numpy(dtype=object)])
+    code = np.zeros(len(xy), dtype=np.int64)
+    code[point[first]] = area[first] + 1
+    return required, names[code]
