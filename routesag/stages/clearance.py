@@ -49,14 +49,26 @@ def check_profiles(profiles, ground, station_rules, surface, point_surface, rule
     ground_z = stack.stack(ground[k] for k in keys)
     clearance = stack.z() - ground_z
     station_required = [station_rules[k] for k in keys]
-    required = stack.stack(r for r, _ in station_required)
+    required = _stacked_required(stack, [r for r, _ in station_required])
     unknown = np.isnan(clearance)
     known_or_inf = np.where(unknown, np.inf, clearance)
-    below = (known_or_inf < required) & stack.per_station(checked)
+    below = known_or_inf < required
+    if not checked.all():
+        below &= stack.per_station(checked)
     found = ground_stretches(stack, ground_z, clearance, required, [c for _, c in station_required], below)
     extras = _surface_checks(stack, keys, checked, ground_z, surface, point_surface, rules, unknown)
     frame = _summary_frame(stack, checked, clearance, required, known_or_inf, unknown, below, extras)
     return frame, _violation_frame(found, extras)
+
+
+def _stacked_required(stack, arrays) -> np.ndarray:
+    """Required clearance of every station; a read-only view of one value when all stations share it."""
+    if all(_one_value(r) for r in arrays):
+        values = np.array([r[0] if len(r) else np.nan for r in arrays], dtype=float)
+        if (values == values[0]).all():
+            return np.broadcast_to(values[0], (len(stack),))
+        return stack.per_station(values)
+    return stack.stack(arrays)
 
 
 def _violation_frame(found: dict[str, np.ndarray], extras: dict) -> pd.DataFrame:
@@ -84,8 +96,8 @@ def ground_stretches(stack, ground_z, clearance, required, categories, below) ->
     uniform = [_one_value(c) for c in categories]
     firsts, lasts = _cut_at_category_changes(stack, categories, uniform, firsts, lasts)
     owner = stack.profile_of(firsts)
-    worst = _largest_deficit(below, required - clearance, firsts)
-    start_m, end_m = _stretch_ends(stack, clearance - required, categories, uniform, firsts, lasts, owner)
+    worst = _largest_deficit(below, clearance, required, firsts)
+    start_m, end_m = _stretch_ends(stack, clearance, required, categories, uniform, firsts, lasts, owner)
     xyz = stack.take([p.xyz for p in stack.profiles], worst).reshape(-1, 3)
     ids = identity_columns([stack.profiles[i] for i in owner])
     return {"profile": owner, **{k: np.array(v, dtype=object) for k, v in ids.items()},
@@ -118,36 +130,43 @@ def _cut_at_category_changes(stack, categories, uniform, firsts, lasts) -> tuple
     return np.array(cut_firsts, dtype=np.int64), np.array(cut_lasts, dtype=np.int64)
 
 
-def _largest_deficit(below, deficit, firsts) -> np.ndarray:
+def _largest_deficit(below, clearance, required, firsts) -> np.ndarray:
     """Stacked index of the first station with the largest deficit in each stretch (stretches cover ``below``)."""
     at = np.flatnonzero(below)
     if not len(firsts):
         return np.empty(0, np.int64)
-    values = deficit[at]
+    values = required[at] - clearance[at]
     begin = np.searchsorted(at, firsts)
     peak = np.maximum.reduceat(values, begin)
     hit = np.flatnonzero(values == np.repeat(peak, np.diff(np.r_[begin, len(at)])))
     return at[hit[np.searchsorted(hit, begin)]]
 
 
-def _stretch_ends(stack, margin, categories, uniform, firsts, lasts, owner) -> tuple[np.ndarray, np.ndarray]:
+def _stretch_ends(stack, clearance, required, categories, uniform, firsts, lasts, owner) -> tuple[np.ndarray,
+                                                                                                  np.ndarray]:
     """:func:`stretch_ends_m` of every stretch: threshold crossings towards a clear neighbour of its category."""
     stations = [p.stations_m for p in stack.profiles]
-    margin = np.where(np.isfinite(margin), margin, np.nan)  # an unknown neighbour is never a crossing
     ends = []
     for at, step, side in ((firsts, -1, 0), (lasts, 1, 1)):
         here = stack.take(stations, at)
         beside = at + step
         inside = beside == np.clip(beside, stack.starts[owner], stack.bounds[owner + 1] - 1)
         beside = np.where(inside, beside, at)
-        move = inside & (margin[beside] >= 0) & _same_category(stack, categories, uniform, owner, at, beside)
+        m_at, m_beside = _margin(clearance, required, at), _margin(clearance, required, beside)
+        move = inside & (m_beside >= 0) & _same_category(stack, categories, uniform, owner, at, beside)
         if move.any():
             s_at, s_beside = here[move], stack.take(stations, beside[move])
-            pair = (s_beside, s_at, margin[beside[move]], margin[at[move]]) if step < 0 else \
-                (s_at, s_beside, margin[at[move]], margin[beside[move]])
+            pair = (s_beside, s_at, m_beside[move], m_at[move]) if step < 0 else \
+                (s_at, s_beside, m_at[move], m_beside[move])
             here[move] = zero_crossing_bounds(*pair)[side]
         ends.append(here)
     return ends[0], ends[1]
+
+
+def _margin(clearance, required, at) -> np.ndarray:
+    """Clearance minus required at stations ``at``; NaN where not finite (an unknown neighbour is no crossing)."""
+    margin = clearance[at] - required[at]
+    return np.where(np.isfinite(margin), margin, np.nan)
 
 
 def _same_category(stack, categories, uniform, owner, at, beside) -> np.ndarray:
@@ -187,8 +206,9 @@ def _summary_frame(stack, checked, clearance, required, known_or_inf, unknown, b
     smallest, worst = stack.first_minimum(known_or_inf)
     known = smallest < np.inf  # the profile has a station with terrain
     safe_worst = np.maximum(worst, 0)
-    required_at = np.where(known, required[safe_worst] if len(required) else np.nan,
-                           stack.reduce(np.maximum, required, np.nan))
+    required_at = required[safe_worst] if len(required) else np.full(len(known), np.nan)
+    for i in np.flatnonzero(~known):  # no terrain under the whole profile: its largest required value
+        required_at[i] = np.max(required[stack.slice(i)])
     any_unknown = stack.any(unknown)
     unknown_m = np.zeros(len(stack.profiles))
     for i in np.flatnonzero(any_unknown):
@@ -196,12 +216,12 @@ def _summary_frame(stack, checked, clearance, required, known_or_inf, unknown, b
     violation = stack.any(below) | np.isin(np.arange(len(checked)), [i for i, e in extras.items() if e[0]])
     status = np.where(~checked, "unchecked", np.where(violation, "violation",
                                                       np.where(any_unknown, "unknown", "clear")))
-    at = [float(p.stations_m[w - b]) if ok else np.nan
-          for p, w, b, ok in zip(stack.profiles, worst, stack.starts, known)]
+    at = np.full(len(known), np.nan)
+    at[known] = stack.take([p.stations_m for p in stack.profiles], worst[known])
     return pd.DataFrame({
         **identity_columns(stack.profiles),
-        "min_clearance_m": np.where(known, clearance[safe_worst] if len(clearance) else np.nan, np.nan),
-        "min_clearance_station_m": np.array(at, dtype=float), "unknown_m": unknown_m,
+        "min_clearance_m": np.where(known, clearance[safe_worst], np.nan),
+        "min_clearance_station_m": at, "unknown_m": unknown_m,
         "required_m": np.where(checked, required_at, np.nan), "status": status.astype(object),
         "min_surface_m": [_min_surface(extras[i][1]) if i in extras else np.nan for i in range(len(checked))]})
 

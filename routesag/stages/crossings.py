@@ -78,18 +78,16 @@ def empty_crossings(crs) -> gpd.GeoDataFrame:
 def station_rules(profiles, crossings, ground_required_m) -> StationField:
     """(required clearance [m], category) per station of each profile, by key; all profiles in one query.
 
-    Without crossing areas every station is ``ground``: the category arrays are
-    then read-only views of one value, not one string per station.
+    Without crossing areas every station is ``ground``: both arrays are then
+    read-only views of one value, not one value stored per station.
     """
     profiles = list(profiles)
     if len(crossings) == 0:
         n = sum(len(p.xyz) for p in profiles)
-        return split_by_profile((np.full(n, float(ground_required_m)), _all_ground(n)), profiles)
+        ground = (np.broadcast_to(np.float64(ground_required_m), (n,)),
+                  np.broadcast_to(np.array("ground", dtype=object), (n,)))
+        return split_by_profile(ground, profiles)
     return split_by_profile(classify_points(stacked_xy(profiles), crossings, ground_required_m), profiles)
-
-
-def _all_ground(n: int) -> np.ndarray:
-    return np.broadcast_to(np.array("ground", dtype=object), (n,))
 
 
 def classify_points(xy, crossings, ground_required_m) -> tuple[np.ndarray, np.ndarray]:
