@@ -126,7 +126,10 @@ def points_in_areas(xy, areas) -> tuple[np.ndarray, np.ndarray]:
     predicate calls than asking a tree of areas about every point. The
     same pairs as ``STRtree(areas).query(points, predicate="intersects")``.
     """
-    near = shapely.STRtree(areas).query(shapely.box(*xy.min(axis=0), *xy.max(axis=0)))
+    finite = np.isfinite(xy).all(axis=1)
+    if not finite.any():
+        return np.empty(0, np.int64), np.empty(0, np.int64)
+    near = shapely.STRtree(areas).query(shapely.box(*xy[finite].min(axis=0), *xy[finite].max(axis=0)))
     order = np.argsort(xy[:, 0], kind="stable")
     x_sorted = xy[order, 0]
     points, found = [], []

@@ -182,11 +182,13 @@ def test_unknown_stretches_only_skip_profiles_with_nothing_unknown(seed):
 def test_station_classes_equal_a_point_by_point_check():
     # the largest required value of the areas a point touches (boundary included), else ground
     rng = np.random.default_rng(3)
-    xy = np.vstack([rng.uniform(0, 100, (400, 2)) - [0, 50], [[20.0, 0.0], [45.0, 0.0], [35.0, 10.0]]])
+    xy = np.vstack([rng.uniform(0, 100, (400, 2)) - [0, 50], [[20.0, 0.0], [45.0, 0.0], [35.0, 10.0]],
+                    [[np.nan, 0.0], [80.0, np.nan]]])  # a point that could not be placed touches nothing
     areas = crossing_areas()
     required, category = classify_points(xy, areas, 7.5)
     for (x, y), r, c in zip(xy, required, category, strict=True):
-        touched = [(a.required_m, a.category) for a in areas.itertuples() if a.geometry.intersects(shapely.Point(x, y))]
+        point = shapely.Point(x, y)
+        touched = [(a.required_m, a.category) for a in areas.itertuples() if a.geometry.intersects(point)]
         assert (r, c) == (max(touched, key=lambda t: t[0]) if touched else (7.5, "ground"))
 
 
