@@ -79,5 +79,8 @@ def merge_hotspots(violations: pd.DataFrame, merge_m: float) -> pd.DataFrame:
 
 def distinct_in_order(frame: pd.DataFrame, column: str) -> pd.Series:
     """Per ``group``, the distinct values of ``column`` as text, in the frame's order, joined by ", "."""
-    values = pd.DataFrame({"group": frame["group"].to_numpy(), "value": [str(v) for v in frame[column]]})
-    return values.drop_duplicates().groupby("group")["value"].agg(", ".join)
+    seen: dict = {}
+    for group, value in zip(frame["group"].tolist(), frame[column].tolist()):
+        seen.setdefault(group, {})[str(value)] = None  # a dict keeps the first-seen order
+    groups = sorted(seen)
+    return pd.Series([", ".join(seen[g]) for g in groups], index=pd.Index(groups, name="group"), name=column)
