@@ -63,7 +63,7 @@ def check_profiles(profiles, ground, station_rules, surface, point_surface, rule
 
 def _stacked_required(stack, arrays) -> np.ndarray:
     """Required clearance of every station; a read-only view of one value when all stations share it."""
-    if all(_one_value(r) for r in arrays):
+    if all(getattr(r, "strides", None) == (0,) or _one_value(r) for r in arrays):
         values = np.array([r[0] if len(r) else np.nan for r in arrays], dtype=float)
         if (values == values[0]).all():
             return np.broadcast_to(values[0], (len(stack),))
@@ -93,7 +93,7 @@ def ground_stretches(stack, ground_z, clearance, required, categories, below) ->
     category changes. The ``profile`` column (the owner's index) comes first.
     """
     firsts, lasts = stack.runs(below)
-    uniform = [_one_value(c) for c in categories]
+    uniform = {i: _one_value(categories[i]) for i in set(stack.profile_of(firsts).tolist())}  # owners only
     firsts, lasts = _cut_at_category_changes(stack, categories, uniform, firsts, lasts)
     owner = stack.profile_of(firsts)
     worst = _largest_deficit(below, clearance, required, firsts)
@@ -216,6 +216,9 @@ def _summary_frame(stack, checked, clearance, required, known_or_inf, unknown, b
     violation = stack.any(below) | np.isin(np.arange(len(checked)), [i for i, e in extras.items() if e[0]])
     status = np.where(~checked, "unchecked", np.where(violation, "violation",
                                                       np.where(any_unknown, "unknown", "clear")))
+    min_surface = np.full(len(known), np.nan)
+    for i, (_, nearer) in extras.items():
+        min_surface[i] = _min_surface(nearer)
     at = np.full(len(known), np.nan)
     at[known] = stack.take([p.stations_m for p in stack.profiles], worst[known])
     return pd.DataFrame({
@@ -223,7 +226,7 @@ def _summary_frame(stack, checked, clearance, required, known_or_inf, unknown, b
         "min_clearance_m": np.where(known, clearance[safe_worst], np.nan),
         "min_clearance_station_m": at, "unknown_m": unknown_m,
         "required_m": np.where(checked, required_at, np.nan), "status": status.astype(object),
-        "min_surface_m": [_min_surface(extras[i][1]) if i in extras else np.nan for i in range(len(checked))]})
+        "min_surface_m": min_surface})
 
 
 def record_rules(rules, ctx) -> None:
