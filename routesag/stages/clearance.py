@@ -12,8 +12,8 @@ import pandas as pd
 
 from routesag.physics.bilinear import zero_crossing_bounds
 from routesag.pipeline import Stage
-from routesag.profiles import (StationStack, identity_columns, profile_identity, profile_keys, runs,  # noqa: F401 (re-exported)
-                               station_edges, station_lengths)
+from routesag.profiles import (  # noqa: F401 (runs, station_edges, station_lengths re-exported)
+    StationStack, identity_columns, profile_identity, profile_keys, runs, station_edges, station_lengths)
 from routesag.stages.point_clearance import closer_surface, find_point_violations
 
 
