@@ -39,7 +39,7 @@ class MeasurePointClearance(Stage):
 
     def run(self, data, ctx):
         project, profiles = data["project"], data["conductors"]
-        result = StationField.fromkeys(p.key for p in profiles)
+        result = StationField.fromkeys(profile_keys(profiles))
         if project.point_cloud is None or not project.point_cloud.surface_classes:
             return {"point_surface": result}
         points = data["surface_points"]

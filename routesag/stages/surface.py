@@ -25,7 +25,7 @@ from scipy.spatial import cKDTree
 from routesag.errors import DataError
 from routesag.io.terrain import TerrainSampler, _first_line, _horizontal_part
 from routesag.pipeline import Stage
-from routesag.profiles import StationField, SurfaceProfile, by_span
+from routesag.profiles import StationField, SurfaceProfile, by_span, profile_keys
 from routesag.stages.terrain import warn_implausible
 
 
@@ -39,7 +39,7 @@ class SampleSurface(Stage):
     def run(self, data, ctx):
         project, profiles = data["project"], data["conductors"]
         if project.surface_path is None:
-            return {"surface": StationField.fromkeys(p.key for p in profiles)}
+            return {"surface": StationField.fromkeys(profile_keys(profiles))}
         rules = project.clearance
         try:
             nodata = project.settings.get("inputs", {}).get("surface_nodata")
@@ -102,7 +102,7 @@ class SurfaceModel:
 
     def sample(self, profiles, checked=lambda case: True) -> StationField:
         """A :class:`SurfaceProfile` per profile of a checked load case, None for the others, by key."""
-        result = StationField.fromkeys(p.key for p in profiles)
+        result = StationField.fromkeys(profile_keys(profiles))
         for span_profiles in by_span(p for p in profiles if checked(p.load_case)):
             result.update(zip((p.key for p in span_profiles), self.sample_span(span_profiles), strict=True))
         return result
