@@ -45,7 +45,12 @@ class ConductorProfile:
 
     @property
     def key(self) -> ProfileKey:
-        return ProfileKey(self.section_id, self.span_id, self.wire, self.load_case)
+        # Asked for once per profile by every per-station dataset: kept, and made anew if a naming field changed.
+        key = self.__dict__.get("_key")
+        if (key is None or key.section_id is not self.section_id or key.span_id is not self.span_id
+                or key.wire is not self.wire or key.load_case is not self.load_case):
+            key = self.__dict__["_key"] = ProfileKey(self.section_id, self.span_id, self.wire, self.load_case)
+        return key
 
 
 @dataclass
@@ -71,7 +76,7 @@ class Profiles:
 
     def __init__(self, profiles: Iterable[ConductorProfile] = ()):
         self._items = list(profiles)
-        self._index = {p.key: i for i, p in enumerate(self._items)}
+        self._index = {p.key: i for i, p in enumerate(self._items)}  # in run order, as keys() gives them
         if len(self._index) != len(self._items):
             raise ValueError("two conductor profiles share one (section, span, wire, load case) key")
 
@@ -91,7 +96,7 @@ class Profiles:
         return f"Profiles({len(self)} profiles in {len(self.section_ids())} sections)"
 
     def keys(self) -> list[ProfileKey]:
-        return [p.key for p in self._items]
+        return list(self._index)
 
     def section_ids(self) -> list[str]:
         return list(dict.fromkeys(p.section_id for p in self._items))
@@ -155,3 +160,106 @@ def runs(mask: np.ndarray) -> list[tuple[int, int]]:
     padded = np.concatenate([[False], mask, [False]]).astype(np.int8)
     change = np.flatnonzero(np.diff(padded))
     return [(int(a), int(b) - 1) for a, b in zip(change[::2], change[1::2])]
+
+
+class StationStack:
+    """The stations of several profiles laid end to end, so a section's checks are a few array operations.
+
+    Per-station arrays are stacked in profile order (as :func:`stacked_xy`);
+    per-profile results come back from segment reductions, in the same order.
+    Runs of stations never cross from one profile into the next.
+    """
+
+    def __init__(self, profiles):
+        self.profiles = list(profiles)
+        self.lengths = np.fromiter((len(p.xyz) for p in self.profiles), dtype=np.int64, count=len(self.profiles))
+        self.bounds = np.concatenate([[0], np.cumsum(self.lengths)])
+        self.starts = self.bounds[:-1]
+
+    def __len__(self) -> int:
+        return int(self.bounds[-1])
+
+    def stack(self, arrays, dtype=float) -> np.ndarray:
+        """One array from one array per profile (in profile order)."""
+        arrays = list(arrays)
+        return np.concatenate(arrays).astype(dtype, copy=False) if arrays else np.empty(0, dtype)
+
+    def z(self) -> np.ndarray:
+        """Wire elevation of every station [m]."""
+        return self.stack(p.xyz[:, 2] for p in self.profiles)
+
+    def stations_m(self) -> np.ndarray:
+        """Station of every station along its span [m]."""
+        return self.stack(p.stations_m for p in self.profiles)
+
+    def per_station(self, values) -> np.ndarray:
+        """One value per profile repeated over its stations."""
+        return np.repeat(np.asarray(values), self.lengths)
+
+    def slice(self, i: int) -> slice:
+        """Where profile ``i`` lies in the stacked arrays."""
+        return slice(int(self.bounds[i]), int(self.bounds[i + 1]))
+
+    def take(self, arrays, index, dtype=float) -> np.ndarray:
+        """Values at stacked station ``index`` from one array per profile (rows for 2D arrays), in order."""
+        owner = self.profile_of(index)
+        local = np.asarray(index) - self.starts[owner]
+        values = [arrays[i][j] for i, j in zip(owner.tolist(), local.tolist())]
+        return np.array(values, dtype=dtype) if values else np.empty(0, dtype)
+
+    def profile_of(self, index) -> np.ndarray:
+        """Which profile each stacked station index belongs to."""
+        return np.searchsorted(self.bounds, index, side="right") - 1
+
+    def any(self, mask: np.ndarray) -> np.ndarray:
+        """Whether each profile has a True station."""
+        return self.reduce(np.logical_or, mask, False)
+
+    def any_nan(self, values: np.ndarray) -> np.ndarray:
+        """Whether each profile has a NaN value (the minimum propagates NaN: one pass, no mask)."""
+        return np.isnan(self.reduce(np.minimum, values, 0.0))
+
+    def reduce(self, ufunc, values: np.ndarray, empty) -> np.ndarray:
+        """``ufunc`` reduced over each profile's stations (``empty`` for a profile with none)."""
+        out = np.full(len(self.profiles), empty, dtype=np.result_type(values, np.asarray(empty)))
+        filled = self.lengths > 0
+        if filled.any():
+            out[filled] = ufunc.reduceat(values, self.starts[filled])
+        return out
+
+    def first_minimum(self, values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The smallest value of each profile (inf for none) and the stacked index of its first station
+        holding it (the profile's start when all are inf, -1 when it has no stations). ``values`` holds no NaN."""
+        smallest = self.reduce(np.minimum, values, np.inf)
+        at = np.flatnonzero(values == self.per_station(smallest))
+        first = at[np.minimum(np.searchsorted(at, self.starts), max(len(at) - 1, 0))] if len(at) else self.starts
+        return smallest, np.where(self.lengths > 0, first, -1)
+
+    def runs(self, mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Stacked index ranges [first, last] of each contiguous True stretch, cut where a profile ends."""
+        if not len(mask):
+            return np.empty(0, np.int64), np.empty(0, np.int64)
+        opens = mask.copy()
+        opens[1:] &= ~mask[:-1]
+        closes = mask.copy()
+        closes[:-1] &= ~mask[1:]
+        begins = self.starts[self.lengths > 0]
+        opens[begins] = mask[begins]
+        ends = self.bounds[1:][self.lengths > 0] - 1
+        closes[ends] = mask[ends]
+        return np.flatnonzero(opens), np.flatnonzero(closes)
+
+
+def profile_keys(profiles) -> list[ProfileKey]:
+    """The keys of ``profiles`` in order (kept by a :class:`Profiles` collection, so not made again)."""
+    return profiles.keys() if isinstance(profiles, Profiles) else [p.key for p in profiles]
+
+
+def identity_columns(profiles) -> dict[str, list]:
+    """:func:`profile_identity` of every profile as columns (``wire`` when any profile has one)."""
+    profiles = list(profiles)
+    columns = {"span_id": [p.span_id for p in profiles], "load_case": [p.load_case for p in profiles]}
+    wires = [getattr(p, "wire", None) for p in profiles]
+    if any(w is not None for w in wires):
+        columns["wire"] = [np.nan if w is None else w for w in wires]
+    return columns

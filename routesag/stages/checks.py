@@ -155,7 +155,7 @@ def edge_band_warnings(structures, terrain, crs, band_m: float) -> list[str]:
 
 def sag_ratio_warnings(profiles, spans) -> list[str]:
     """One warning naming the spans whose worst sag ratio (sag / span) exceeds :data:`SAG_RATIO_LIMIT`."""
-    span_m = spans.set_index("span_id")["span_m"]
+    span_m = dict(zip(spans["span_id"], spans["span_m"].to_numpy(dtype=float)))  # one look-up per profile
     worst: dict[str, tuple[float, str]] = {}
     for p in profiles:
         ratio = p.sag_m / float(span_m[p.span_id])

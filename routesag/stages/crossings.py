@@ -76,7 +76,17 @@ def empty_crossings(crs) -> gpd.GeoDataFrame:
 
 
 def station_rules(profiles, crossings, ground_required_m) -> StationField:
-    """(required clearance [m], category) per station of each profile, by key; all profiles in one query."""
+    """(required clearance [m], category) per station of each profile, by key; all profiles in one query.
+
+    Without crossing areas every station is ``ground``: both arrays are then
+    read-only views of one value, not one value stored per station.
+    """
+    profiles = list(profiles)
+    if len(crossings) == 0:
+        n = sum(len(p.xyz) for p in profiles)
+        ground = (np.broadcast_to(np.float64(ground_required_m), (n,)),
+                  np.broadcast_to(np.array("ground", dtype=object), (n,)))
+        return split_by_profile(ground, profiles)
     return split_by_profile(classify_points(stacked_xy(profiles), crossings, ground_required_m), profiles)
 
 
@@ -93,15 +103,44 @@ def classify_points(xy, crossings, ground_required_m) -> tuple[np.ndarray, np.nd
         Required clearance outside every crossing [m].
     """
     required = np.full(len(xy), float(ground_required_m))
-    category = np.full(len(xy), "ground", dtype=object)
     if len(xy) == 0 or len(crossings) == 0:
-        return required, category
-    tree = shapely.STRtree(crossings.geometry.values)
-    point, area = tree.query(shapely.points(xy), predicate="intersects")
+        return required, np.full(len(xy), "ground", dtype=object)
+    point, area = points_in_areas(xy, crossings.geometry.values)
     area_required = crossings["required_m"].to_numpy(dtype=float)[area]
     order = np.lexsort((area, -area_required, point))  # per point: largest required first
     point, area = point[order], area[order]
     first = np.r_[True, point[1:] != point[:-1]] if len(point) else np.empty(0, bool)
     required[point[first]] = crossings["required_m"].to_numpy(dtype=float)[area[first]]
-    category[point[first]] = crossings["category"].to_numpy(dtype=object)[area[first]]
-    return required, category
+    # the category as an index into ["ground", each area's category]: one gather instead of a string per point
+    names = np.concatenate([np.array(["ground"], dtype=object), crossings["category"].to_numpy(dtype=object)])
+    code = np.zeros(len(xy), dtype=np.int64)
+    code[point[first]] = area[first] + 1
+    return required, names[code]
+
+
+def points_in_areas(xy, areas) -> tuple[np.ndarray, np.ndarray]:
+    """(point, area) index pairs of every plan point inside an area, boundary included (``intersects``).
+
+    Each area near the points tests only the points in its bounding box
+    (found on the points sorted by x), as a prepared geometry: far fewer
+    predicate calls than asking a tree of areas about every point. The
+    same pairs as ``STRtree(areas).query(points, predicate="intersects")``.
+    """
+    finite = np.isfinite(xy).all(axis=1)
+    if not finite.any():
+        return np.empty(0, np.int64), np.empty(0, np.int64)
+    near = shapely.STRtree(areas).query(shapely.box(*xy[finite].min(axis=0), *xy[finite].max(axis=0)))
+    order = np.argsort(xy[:, 0], kind="stable")
+    x_sorted = xy[order, 0]
+    points, found = [], []
+    for a in np.sort(near):
+        x0, y0, x1, y1 = areas[a].bounds
+        candidates = order[np.searchsorted(x_sorted, x0, "left"):np.searchsorted(x_sorted, x1, "right")]
+        candidates = candidates[(xy[candidates, 1] >= y0) & (xy[candidates, 1] <= y1)]
+        shapely.prepare(areas[a])  # kept on the geometry, so the next section reuses it
+        inside = candidates[shapely.intersects_xy(areas[a], xy[candidates, 0], xy[candidates, 1])]
+        points.append(inside)
+        found.append(np.full(len(inside), a, dtype=np.int64))
+    if not points:
+        return np.empty(0, np.int64), np.empty(0, np.int64)
+    return np.concatenate(points).astype(np.int64), np.concatenate(found)

@@ -70,8 +70,17 @@ def merge_hotspots(violations: pd.DataFrame, merge_m: float) -> pd.DataFrame:
     worst_first = v.sort_values(order, ascending=[c != "deficit_m" for c in order], kind="stable")
     governing = worst_first.drop_duplicates("group").set_index("group")
     grouped = worst_first.groupby("group")
-    lists = {name: grouped[c].agg(lambda s: ", ".join(dict.fromkeys(map(str, s)))) for c, name in listed.items()}
+    lists = {name: distinct_in_order(worst_first, c) for c, name in listed.items()}
     hotspots = governing.assign(n_violations=grouped.size(), z=governing["conductor_z_m"], **lists)
     hotspots = hotspots.reset_index(drop=True)
     hotspots["rank"] = np.arange(1, len(hotspots) + 1)
     return hotspots.reindex(columns=columns)
+
+
+def distinct_in_order(frame: pd.DataFrame, column: str) -> pd.Series:
+    """Per ``group``, the distinct values of ``column`` as text, in the frame's order, joined by ", "."""
+    seen: dict = {}
+    for group, value in zip(frame["group"].tolist(), frame[column].tolist()):
+        seen.setdefault(group, {})[str(value)] = None  # a dict keeps the first-seen order
+    groups = sorted(seen)
+    return pd.Series([", ".join(seen[g]) for g in groups], index=pd.Index(groups, name="group"), name=column)

@@ -20,7 +20,7 @@ import numpy as np
 
 from routesag.physics.point_clearance import nearest_surface, surface_category
 from routesag.pipeline import Stage
-from routesag.profiles import StationField, SurfaceProfile
+from routesag.profiles import StationField, StationStack, SurfaceProfile, profile_keys
 
 
 @dataclass
@@ -39,7 +39,7 @@ class MeasurePointClearance(Stage):
 
     def run(self, data, ctx):
         project, profiles = data["project"], data["conductors"]
-        result = StationField.fromkeys(p.key for p in profiles)
+        result = StationField.fromkeys(profile_keys(profiles))
         if project.point_cloud is None or not project.point_cloud.surface_classes:
             return {"point_surface": result}
         points = data["surface_points"]
@@ -47,17 +47,28 @@ class MeasurePointClearance(Stage):
         classes = points["classification"].to_numpy().astype(np.uint8)
         rules = project.clearance
         reach_m = max(required_of(rules.required_m, c) for c in ("vegetation", "building", "surface"))
-        chords = data["wire_spans"].set_index(["span_id", "wire"])
+        chords = _chords(data["wire_spans"])
         ctx.notes["point_clearance_rule"] = (
             f"3D distance from each station to the nearest surface point (classes "
             f"{', '.join(map(str, project.point_cloud.surface_classes))}); stations within {reach_m:.2f} m of "
             "the edge of the kept corridor are unknown")
-        for profile in profiles:
-            if not rules.checks(profile.load_case):
-                continue
-            chord = chords.loc[(profile.span_id, profile.wire)]
-            result[profile.key] = measure(profile.xyz, xyz, classes, reach_m, data["point_corridor_m"], chord)
+        checked = [(p, key) for p, key in zip(profiles, profile_keys(profiles), strict=True)
+                   if rules.checks(p.load_case)]
+        stack = StationStack(p for p, _ in checked)
+        # one k-d tree for the section: every station of every checked profile asks it at once
+        distance, index = nearest_surface(stack.stack((p.xyz for p, _ in checked)).reshape(-1, 3), xyz)
+        for i, (profile, key) in enumerate(checked):
+            part = stack.slice(i)
+            result[key] = measured(profile.xyz, distance[part], index[part], xyz, classes, reach_m,
+                                   data["point_corridor_m"], chords[(profile.span_id, profile.wire)])
         return {"point_surface": result}
+
+
+def _chords(wire_spans) -> dict:
+    """Rest chord (x0, y0, x1, y1) [m] of each wire span, by (span_id, wire)."""
+    ends = wire_spans[["x0", "y0", "x1", "y1"]].to_numpy(dtype=float)
+    return {key: dict(zip(("x0", "y0", "x1", "y1"), row))
+            for key, row in zip(zip(wire_spans["span_id"], wire_spans["wire"]), ends)}
 
 
 def required_of(required_m: dict, category: str) -> float:
@@ -68,6 +79,11 @@ def required_of(required_m: dict, category: str) -> float:
 def measure(stations_xyz, points_xyz, classes, reach_m, corridor_m, chord) -> PointSurfaceProfile:
     """Nearest surface point of every station, and whether its reach stays inside the corridor."""
     distance, index = nearest_surface(stations_xyz, points_xyz)
+    return measured(stations_xyz, distance, index, points_xyz, classes, reach_m, corridor_m, chord)
+
+
+def measured(stations_xyz, distance, index, points_xyz, classes, reach_m, corridor_m, chord) -> PointSurfaceProfile:
+    """:func:`measure` from the nearest points already found (``index`` -1 where none)."""
     found = index >= 0
     nearest = np.full((len(stations_xyz), 3), np.nan)
     nearest[found] = points_xyz[index[found]]
@@ -93,9 +109,11 @@ def find_point_violations(profile, ground, points: PointSurfaceProfile, required
     """
     from routesag.stages.clearance import violation_record, violation_stretches  # it imports this module
 
-    categories = np.where(points.classification > 0, surface_category(points.classification), "surface")
-    categories = categories.astype(object)
-    required = np.array([required_of(required_m, c) for c in categories], dtype=float)
+    # a few classes, many stations: category and required distance looked up once per class
+    classes, where = np.unique(points.classification, return_inverse=True)
+    names = np.where(classes > 0, surface_category(classes), "surface").astype(object)
+    categories = names[where.reshape(-1)]
+    required = np.array([required_of(required_m, c) for c in names], dtype=float)[where.reshape(-1)]
     found = []
     for first, last, worst in violation_stretches(points.distance_m, required, categories):
         row = violation_record(profile, ground, points.distance_m, required, categories, first, last, worst)

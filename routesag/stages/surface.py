@@ -25,7 +25,7 @@ from scipy.spatial import cKDTree
 from routesag.errors import DataError
 from routesag.io.terrain import TerrainSampler, _first_line, _horizontal_part
 from routesag.pipeline import Stage
-from routesag.profiles import StationField, SurfaceProfile, by_span
+from routesag.profiles import StationField, SurfaceProfile, by_span, profile_keys
 from routesag.stages.terrain import warn_implausible
 
 
@@ -39,7 +39,7 @@ class SampleSurface(Stage):
     def run(self, data, ctx):
         project, profiles = data["project"], data["conductors"]
         if project.surface_path is None:
-            return {"surface": StationField.fromkeys(p.key for p in profiles)}
+            return {"surface": StationField.fromkeys(profile_keys(profiles))}
         rules = project.clearance
         try:
             nodata = project.settings.get("inputs", {}).get("surface_nodata")
@@ -102,7 +102,7 @@ class SurfaceModel:
 
     def sample(self, profiles, checked=lambda case: True) -> StationField:
         """A :class:`SurfaceProfile` per profile of a checked load case, None for the others, by key."""
-        result = StationField.fromkeys(p.key for p in profiles)
+        result = StationField.fromkeys(profile_keys(profiles))
         for span_profiles in by_span(p for p in profiles if checked(p.load_case)):
             result.update(zip((p.key for p in span_profiles), self.sample_span(span_profiles), strict=True))
         return result
@@ -120,7 +120,9 @@ class SurfaceModel:
         objects = known & (z - ground > self.min_height_m)
         tree = cKDTree(np.column_stack([x, y, z])[objects]) if objects.any() else None
         holes = cKDTree(np.column_stack([x, y])[~known]) if (~known).any() else None
-        return [self._profile(p, tree, holes, radius_m) for p in profiles]
+        found = self._nearest(xyz, tree, holes, radius_m)  # all the span's stations in one query per tree
+        bounds = np.cumsum([0] + [len(p.xyz) for p in profiles])
+        return [SurfaceProfile(*(v[a:b] for v in found)) for a, b in zip(bounds[:-1], bounds[1:])]
 
     def _cells(self, xyz, chord, radius_m):
         """Surface cell centres (NaN z over nodata) within ``radius_m`` of the chord, in the working CRS."""
@@ -130,17 +132,18 @@ class SurfaceModel:
         near = _distance_to_segment(x, y, chord[0], chord[1]) <= radius_m
         return x[near], y[near], z[near]
 
-    def _profile(self, profile, tree, holes, radius_m) -> SurfaceProfile:
-        n = len(profile.xyz)
+    def _nearest(self, xyz, tree, holes, radius_m) -> tuple[np.ndarray, ...]:
+        """Distance, nearest object cell (x, y, z) and unknown flag of stations ``xyz``, as SurfaceProfile fields."""
+        n = len(xyz)
         distance, nearest = np.full(n, np.inf), np.full((n, 3), np.nan)
         if tree is not None:
-            distance, index = tree.query(profile.xyz, distance_upper_bound=radius_m)
+            distance, index = tree.query(xyz, distance_upper_bound=radius_m)
             found = np.isfinite(distance)
             nearest[found] = tree.data[index[found]]
-        unknown = ~self._covered(profile.xyz[:, :2])
+        unknown = ~self._covered(xyz[:, :2])
         if holes is not None:
-            unknown |= np.isfinite(holes.query(profile.xyz[:, :2], distance_upper_bound=self.reach_m)[0])
-        return SurfaceProfile(distance, nearest[:, 0], nearest[:, 1], nearest[:, 2], unknown)
+            unknown |= np.isfinite(holes.query(xyz[:, :2], distance_upper_bound=self.reach_m)[0])
+        return distance, nearest[:, 0], nearest[:, 1], nearest[:, 2], unknown
 
     def _covered(self, xy) -> np.ndarray:
         """The surface raster covers the reach around each point (checked at four points)."""

@@ -34,6 +34,7 @@ def sample_under(profiles, terrain, crs) -> StationField:
     """
     ground = StationField()
     for span_profiles in by_span(profiles):
-        xyz = np.concatenate([p.xyz for p in span_profiles])
-        ground.update(split_by_profile(terrain.sample(xyz[:, 0], xyz[:, 1], crs=crs), span_profiles))
+        x = np.concatenate([p.xyz[:, 0] for p in span_profiles])
+        y = np.concatenate([p.xyz[:, 1] for p in span_profiles])
+        ground.update(split_by_profile(terrain.sample(x, y, crs=crs), span_profiles))
     return ground

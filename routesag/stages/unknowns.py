@@ -11,7 +11,7 @@ import pandas as pd
 import shapely
 
 from routesag.pipeline import Stage
-from routesag.profiles import profile_identity, runs, station_edges
+from routesag.profiles import StationStack, profile_identity, profile_keys, runs, station_edges
 
 UNKNOWN_COLUMNS = ["span_id", "load_case", "start_m", "end_m", "length_m", "reason"]
 
@@ -26,10 +26,23 @@ class FindUnknowns(Stage):
     def run(self, data, ctx):
         rules = data["project"].clearance
         ground, surface, points = data["ground"], data["surface"], data["point_surface"]
-        rows = [row for profile in data["conductors"] if rules.checks(profile.load_case)
+        rows = [row for profile in incomplete_profiles(data["conductors"], ground, surface, points, rules.checks)
                 for row in unknown_stretches(profile, ground.of(profile), surface.of(profile), points.of(profile))]
         frame = pd.DataFrame(rows) if rows else pd.DataFrame(columns=UNKNOWN_COLUMNS + ["geometry"])
         return {"unknown_stretches": frame}
+
+
+def incomplete_profiles(profiles, ground, surface, points, checked=lambda case: True) -> list:
+    """The profiles of checked load cases with at least one station of unknown clearance, in order.
+
+    Terrain holes are found over all stations at once; a profile with a surface
+    model or surface points is always kept (its own stations say more).
+    """
+    chosen = [(p, key) for p, key in zip(profiles, profile_keys(profiles), strict=True) if checked(p.load_case)]
+    stack = StationStack(p for p, _ in chosen)
+    holes = stack.any_nan(stack.stack(ground[key] for _, key in chosen))
+    return [p for (p, key), hole in zip(chosen, holes, strict=True)
+            if hole or surface[key] is not None or points[key] is not None]
 
 
 def unknown_stretches(profile, ground, surface=None, points=None) -> list[dict]:

@@ -54,3 +54,26 @@ def test_merge_distance_matters():
 def test_no_violations_no_hotspots():
     hotspots = merge_hotspots(pd.DataFrame(), 10.0)
     assert len(hotspots) == 0 and "rank" in hotspots.columns
+
+
+def test_listed_values_are_the_distinct_ones_worst_first_per_hotspot():
+    # reference: per hotspot, the distinct values in the worst-first order, as the violations list them
+    import numpy as np
+
+    rng = np.random.default_rng(5)
+    n = 300
+    rows = [(float(x), 0.0, float(d), str(rng.choice(["hot", "ice", "wind"])), str(rng.choice(["ground", "road"])),
+             f"s{int(x // 50)}", str(rng.choice(["A", "B", "C"])))
+            for x, d in zip(rng.uniform(0, 3000, n), rng.uniform(0, 3, n))]
+    v = violations(rows, wire=True)
+    hotspots = merge_hotspots(v, 12.0)
+    labels = cluster_labels(v["x"].to_numpy(), v["y"].to_numpy(), 12.0)
+    for hotspot in hotspots.itertuples():
+        group = labels[int(np.flatnonzero((v["x"] == hotspot.x).to_numpy())[0])]
+        members = v[labels == group].sort_values(["deficit_m", "span_id", "load_case", "station_m"],
+                                                   ascending=[False, True, True, True], kind="stable")
+        assert hotspot.load_cases == ", ".join(dict.fromkeys(members["load_case"]))
+        assert hotspot.wires == ", ".join(dict.fromkeys(members["wire"]))
+        assert hotspot.span_ids == ", ".join(dict.fromkeys(members["span_id"]))
+        assert hotspot.n_violations == len(members)
+    assert len(hotspots) > 20 and (hotspots["n_violations"] > 1).any()
