@@ -23,16 +23,20 @@ References
    catenary between supports at different heights).
 """
 
+import math
+
 import numpy as np
+from scipy.optimize import brentq
 
 from routesag.errors import SolveError
 
 from .catenary import length_and_mean_tension
-from .roots import remembered, tension_root
-from .two_material import LinearLaw
+from .roots import remembered, tension_root, widen_bracket
+from .state_change import parabolic_change_of_state, ruling_span
+from .two_material import KNEE_SEARCH_C, LinearLaw
 
 __all__ = ["section_unstressed_length", "section_change_of_state", "section_unstressed_length_by_law",
-           "section_change_of_state_by_law"]
+           "section_change_of_state_by_law", "section_knee_point_temperature_c"]
 
 #: Slackest state tried, as in the ruling-span solver: half-span angle S/2c of the longest span.
 _MAX_HALF_SPAN_ANGLE = 300.0
@@ -103,4 +107,80 @@ def section_change_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, tempe
         raise SolveError(f"section change of state has no solution with a horizontal tension between {low:.4g} N "
                          f"and EA = {high:.4g} N (state 1 H = {tension1_n:g} N, t = {temperature1_c:g} C; "
                          f"state 2 w = {weight2_n_m:g} N/m, t = {temperature2_c:g} C)")
+    # the root of the same residual, from a narrower bracket around the ruling span's parabolic estimate
+    try:
+        guess = float(parabolic_change_of_state(ruling_span(spans2), tension1_n, weight1_n_m, temperature1_c,
+                                                weight2_n_m, temperature2_c, float(law2.axial_stiffness_n), 1.0,
+                                                law2.expansion_per_c))
+    except SolveError:  # no estimate: search the whole range
+        guess = math.nan
+    if math.isfinite(guess):
+        low, high = widen_bracket(residual, min(max(guess, low), high), low, high)
     return tension_root(residual, low, high, "section change of state")
+
+
+def section_knee_point_temperature_c(spans_m, dz_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
+                                     law1, law2, search_c=KNEE_SEARCH_C) -> float:
+    """Knee-point temperature of a section's wire in state 2's law, solved as one root [degC].
+
+    The knee is the temperature ``t`` at which the wire, carried there from
+    state 1 (a change of state of the section, as
+    :func:`section_change_of_state_by_law`), has a span-weighted mean
+    tension equal to the knee tension of ``law2`` at ``t``
+    (:func:`.two_material.knee_point_temperature_c` finds it as a root over
+    ``t`` of roots over ``H``). Here the unknown is the horizontal tension
+    ``H``: it fixes the mean tension, the mean tension fixes the temperature
+    at which it is the knee tension (``law2.knee_temperature_c``, or a search
+    over ``t``), and ``H`` is the tension whose section unstressed length at
+    that temperature is state 1's. The residual falls with ``H`` (tighter
+    and hotter wire, both shorter unstressed), so one bracketed root
+    (1e-9 N) gives the knee, far inside the 1e-6 degC of the other form.
+    The temperature is held inside ``search_c`` while searching; NaN when
+    the knee lies outside it. A level ruling span is one span with
+    ``dz_m = 0``.
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        The residual does not change sign on the physical range (use the other form then).
+    """
+    spans, dz = np.asarray(spans_m, dtype=float), np.asarray(dz_m, dtype=float)
+    lowest_c, highest_c = map(float, search_c)
+    target_m = section_unstressed_length_by_law(spans, dz, tension1_n, weight1_n_m, temperature1_c, law1)
+    knee_at = _knee_temperature_function(law2, lowest_c, highest_c)
+
+    def state(tension_n):
+        length, mean_n = length_and_mean_tension(spans, dz, tension_n, weight2_n_m)
+        return length, mean_n, knee_at(float(np.average(mean_n, weights=spans)))
+
+    @remembered
+    def residual(tension_n):
+        length, mean_n, knee_c = state(tension_n)
+        held_c = min(max(knee_c, lowest_c), highest_c)
+        return float(np.sum(length / law2.stretch_ratio(mean_n, held_c))) - target_m
+
+    low = weight2_n_m * float(np.max(spans)) / (2.0 * _MAX_HALF_SPAN_ANGLE)
+    high = float(law2.least_stiffness_n)
+    if not residual(low) > 0 > residual(high):
+        raise SolveError("knee point: no sign change of the one-root form on the physical range")
+    low, high = widen_bracket(residual, min(max(float(tension1_n), low), high), low, high)
+    knee_c = state(tension_root(residual, low, high, "knee point"))[2]
+    return knee_c if lowest_c < knee_c < highest_c else math.nan
+
+
+def _knee_temperature_function(law, lowest_c, highest_c):
+    """``mean tension [N] -> temperature [degC]`` at which it is ``law``'s knee tension (+-inf beyond the search
+    when the law has no closed-form inverse)."""
+    closed_form = getattr(law, "knee_temperature_c", None)
+    if closed_form is not None:
+        return lambda tension_n: float(closed_form(tension_n))
+    at_lowest, at_highest = float(law.knee_tension_n(lowest_c)), float(law.knee_tension_n(highest_c))
+
+    def by_search(tension_n):
+        if tension_n <= at_lowest:
+            return -math.inf
+        if tension_n >= at_highest:
+            return math.inf
+        return float(brentq(lambda t: float(law.knee_tension_n(t)) - tension_n, lowest_c, highest_c, xtol=1e-10))
+
+    return by_search

@@ -30,11 +30,11 @@ from scipy.optimize import brentq, minimize_scalar
 from routesag.errors import SolveError
 
 from .catenary import length_and_mean_tension, mean_tension
-from .roots import remembered, tension_root
+from .roots import bracketed_roots, remembered, tension_root, widen_bracket
 from .two_material import LinearLaw
 
-__all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "parabolic_change_of_state",
-           "physical_tension_range"]
+__all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "changes_of_state_by_law",
+           "parabolic_change_of_state", "physical_tension_range"]
 
 #: Largest half-span angle S/2c tried by the exact solver; cosh overflows near 710.
 _MAX_HALF_SPAN_ANGLE = 300.0
@@ -170,11 +170,78 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
     low_limit, high_limit = physical_tension_range(span_m, weight2_n_m, float(law2.least_stiffness_n), describe)
     guess = parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
                                       temperature2_c, axial_stiffness_n, 1.0, law2.expansion_per_c)
-    low, high = _bracket(residual, float(np.clip(guess, low_limit, high_limit)), low_limit, high_limit)
+    low, high = widen_bracket(residual, float(np.clip(guess, low_limit, high_limit)), low_limit, high_limit)
     if low is None:
         raise SolveError(f"change of state has no solution with a horizontal tension between "
                          f"{low_limit:.4g} N and {high_limit:.4g} N ({describe})")
     return tension_root(residual, low, high, "change of state")
+
+
+def changes_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperatures2_c,
+                            law1, law2):
+    """:func:`change_of_state_by_law` for many states 2 at once (one state 1), vectorised [N].
+
+    ``weight2_n_m`` and ``temperatures2_c`` broadcast against each other; the
+    result has their shape. Each element is solved on the same physical
+    range and to the same tolerance as the scalar solver (1e-9 N plus
+    1e-13 relative, :func:`.roots.bracketed_roots`), so the two agree within
+    it. Any element the vectorised path cannot settle (an input out of range,
+    no sign change) is handed to the scalar solver, which raises its error.
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        As :func:`change_of_state_by_law`, for the first failing element.
+    """
+    w2, t2 = np.broadcast_arrays(np.asarray(weight2_n_m, dtype=float), np.asarray(temperatures2_c, dtype=float))
+    shape = w2.shape
+    w2, t2 = w2.ravel(), t2.ravel()
+    if w2.size == 0:
+        return np.empty(shape)
+
+    def scalar(i):
+        return change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, w2[i], t2[i], law1, law2)
+
+    span_m, tension1_n, weight1_n_m = float(span_m), float(tension1_n), float(weight1_n_m)
+    valid = (np.isfinite([span_m, tension1_n, weight1_n_m]).all() and min(span_m, tension1_n, weight1_n_m) > 0
+             and np.all(np.isfinite(w2) & (w2 > 0)) and float(law2.axial_stiffness_n) > 0
+             and law1.stretch_ratio(0.0, temperature1_c) > 0 and np.all(law2.stretch_ratio(0.0, t2) > 0)
+             and mean_tension(span_m, 0.0, tension1_n, weight1_n_m) < law1.least_stiffness_n)
+    ranges = [_physical_tension_range(span_m, float(w), float(law2.least_stiffness_n)) for w in w2] if valid else []
+    if not valid or any(r is None for r in ranges):
+        for i in range(w2.size):
+            scalar(i)  # raises the scalar solver's message for the first bad state
+    low_limit, high_limit = np.array(ranges).T
+    target_m = _unstressed_length(span_m, tension1_n, weight1_n_m, temperature1_c, law1)
+
+    def residual(tension_n):
+        stretched, mean_n = length_and_mean_tension(span_m, 0.0, tension_n, w2)
+        return stretched / law2.stretch_ratio(mean_n, t2) - target_m
+
+    guess = np.clip(parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, w2, t2,
+                                              float(law2.axial_stiffness_n), 1.0, law2.expansion_per_c),
+                    low_limit, high_limit)
+    low, high = _bracket_many(residual, guess, low_limit, high_limit)
+    if np.isnan(low).any():
+        for i in np.flatnonzero(np.isnan(low)):
+            scalar(i)
+    return bracketed_roots(residual, low, high, 1e-9, 1e-13, what="change of state").reshape(shape)
+
+
+def _bracket_many(residual, guess, low_limit, high_limit):
+    """``[guess/2, 2 guess]`` inside the limits where it brackets the sign change, else the limits themselves
+    (NaN where even they do not)."""
+    low = np.minimum(np.maximum(guess / 2.0, low_limit), high_limit)
+    high = np.maximum(np.minimum(guess * 2.0, high_limit), low_limit)
+    at_low, at_high = residual(low), residual(high)
+    too_high, too_low = at_low < 0, at_high > 0  # the root lies below ``low`` / above ``high``
+    if too_high.any() or too_low.any():
+        low, high = (np.where(too_high, low_limit, np.where(too_low, high, low)),
+                     np.where(too_high, low, np.where(too_low, high_limit, high)))
+        at_low, at_high = residual(low), residual(high)
+        bad = ~((at_low >= 0) & (at_high <= 0))
+        low, high = np.where(bad, np.nan, low), np.where(bad, np.nan, high)
+    return low, high
 
 
 def _unstressed_length(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):
@@ -231,20 +298,6 @@ def _physical_tension_range(span_m, weight_n_m, axial_stiffness_n):
     low = slackest if excess(slackest) < 0 else brentq(excess, slackest, best, xtol=1e-14)
     high = brentq(excess, best, tightest, xtol=1e-14)
     return float(np.exp(low)), float(np.exp(high))
-
-
-def _bracket(residual, guess, low_limit, high_limit):
-    """Widen ``[guess/2, 2 guess]`` by factors of 4 inside the limits until the decreasing
-    ``residual`` changes sign; return ``(low, high)`` or ``(None, None)``."""
-    low = min(max(guess / 2.0, low_limit), high_limit)
-    high = max(min(guess * 2.0, high_limit), low_limit)
-    while residual(low) < 0 and low > low_limit:
-        low, high = max(low / 4.0, low_limit), low
-    while residual(high) > 0 and high < high_limit:
-        low, high = high, min(high * 4.0, high_limit)
-    if residual(low) >= 0 >= residual(high):
-        return low, high
-    return None, None
 
 
 def parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,

@@ -22,7 +22,7 @@ import pandas as pd
 from routesag.errors import ProjectError
 from routesag.physics.catenary import midspan_sag, support_tensions
 from routesag.physics.loads import bare_weight_n_m
-from routesag.physics.state_change import change_of_state_by_law
+from routesag.physics.state_change import changes_of_state_by_law
 from routesag.pipeline import Stage
 
 #: Conductor temperatures of the table [degC].
@@ -49,23 +49,26 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
     The stringing tension of each section and wire is read from ``tensions``
     (``stringing_tension_n``), so a design tension found from the limits is used.
     ``conditions``: ``initial`` (as strung) and/or ``final`` (after creep: the
-    initial state at the temperature plus the wire's creep allowance).
+    initial state at the temperature plus the wire's creep allowance). Wires
+    whose ruling span, stringing state, conductor and stringing are exactly
+    equal share one change of state per temperature (:func:`ruling_span_tensions`).
     """
     first = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])
     stringing_n = first["stringing_tension_n"]
     # the temperature of the state the tensions start from (the survey's when re-rated from the as-found state)
     stringing_c = first["stringing_temperature_c"] if "stringing_temperature_c" in first else None
     by_wire = dict(tuple(wire_spans.groupby(["section_id", "wire"], sort=False)))
-    frames = []
+    shared = {}
+    parts = []
     for _, section in sections.iterrows():
         for wire in project.line_wires(section["line_id"]):
             key = (section["section_id"], wire.name)
             start_c = None if stringing_c is None else float(stringing_c[key])
-            frames.extend(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
-                                            condition, start_c) for condition in conditions)
-    if not frames:
+            parts.extend(section_columns(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
+                                         condition, start_c, shared) for condition in conditions)
+    if not parts:
         return pd.DataFrame(columns=COLUMNS)
-    return pd.concat(frames, ignore_index=True)[COLUMNS]
+    return pd.DataFrame({name: np.concatenate([part[name] for part in parts]) for name in COLUMNS})
 
 
 def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
@@ -79,38 +82,76 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
     ProjectError
         ``final`` for a wire without a creep allowance.
     """
-    c, stringing = wire.conductor, wire.stringing
-    start_c = stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
+    columns = section_columns(section, spans, stringing_tension_n, wire, temperatures_c, condition,
+                              stringing_temperature_c)
+    return pd.DataFrame(columns)[COLUMNS]
+
+
+def section_columns(section, spans, stringing_tension_n, wire, temperatures_c, condition="initial",
+                    stringing_temperature_c=None, shared=None) -> dict:
+    """:func:`section_sag_table` as numpy columns (:data:`COLUMNS`); ``shared`` caches the ruling span's
+    tensions between calls (see :func:`ruling_span_tensions`)."""
+    c = wire.conductor
+    start_c = wire.stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
     w_n_m = float(bare_weight_n_m(c.mass_kg_m))
     ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
     temps = np.asarray(temperatures_c, dtype=float)
-    law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
-    try:
-        states_c, final_law = condition_states(c, stringing, temps, condition, start_c, law)
-    except ValueError as exc:
-        raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
-                           "creep_allowance_c in its [stringing] table") from None
-    h_n = np.array([change_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, start_c, w_n_m, t, law, final_law)
-                    for t in states_c])
-    ruling = {"kind": "ruling", "span_id": None, "from_id": None, "to_id": None}
-    span_rows = [{"kind": "span", "span_id": s.span_id, "from_id": s.from_id, "to_id": s.to_id}
-                 for s in spans.itertuples()]
+    h_n = ruling_span_tensions(ruling_m, stringing_tension_n, start_c, wire, temps, condition,
+                               {} if shared is None else shared)
     span_m = np.concatenate([[ruling_m], spans["span_m"].to_numpy(dtype=float)])[:, None]
     dz_m = np.concatenate([[0.0], spans["dz_m"].to_numpy(dtype=float)])[:, None]
     catenary_m = h_n[None, :] / w_n_m
     at_a, at_b = support_tensions(span_m, dz_m, h_n[None, :], w_n_m)
     shape = (len(span_m), len(temps))
-    frame = pd.DataFrame({
-        "section_id": section["section_id"], "wire": wire.name,
+
+    def labels(first, values):
+        return np.repeat(np.array([first] + list(values), dtype=object), shape[1])
+
+    return {
+        "section_id": np.full(shape[0] * shape[1], section["section_id"], dtype=object),
+        "wire": np.full(shape[0] * shape[1], wire.name, dtype=object),
+        "kind": labels("ruling", ["span"] * (shape[0] - 1)),
+        "span_id": labels(None, spans["span_id"]), "from_id": labels(None, spans["from_id"]),
+        "to_id": labels(None, spans["to_id"]),
         "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
-        "temperature_c": np.broadcast_to(temps, shape).ravel(), "condition": condition,
+        "temperature_c": np.broadcast_to(temps, shape).ravel(),
+        "condition": np.full(shape[0] * shape[1], condition, dtype=object),
         "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
         "max_tension_n": np.maximum(at_a, at_b).ravel(),
         "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
         "catenary_m": np.broadcast_to(catenary_m, shape).ravel(),
-    })
-    labels = pd.DataFrame([ruling] + span_rows).loc[np.repeat(np.arange(shape[0]), shape[1])]
-    return pd.concat([frame, labels.reset_index(drop=True)], axis=1)
+    }
+
+
+def ruling_span_tensions(ruling_m, stringing_tension_n, start_c, wire, temps_c, condition, shared) -> np.ndarray:
+    """Horizontal tension of the ruling span at each temperature [N], all temperatures in one vectorised
+    change of state; solved once per exact (ruling span, stringing state, conductor, stringing, condition,
+    temperatures) in ``shared``.
+
+    Raises
+    ------
+    ProjectError
+        ``final`` for a wire without a creep allowance.
+    """
+    c, stringing = wire.conductor, wire.stringing
+    key = (ruling_m, stringing_tension_n, start_c, c, stringing, condition, temps_c.tobytes())
+    try:
+        if key in shared:
+            return shared[key]
+    except TypeError:  # an unhashable conductor: solve every time
+        shared, key = {}, None
+    w_n_m = float(bare_weight_n_m(c.mass_kg_m))
+    law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
+    try:
+        states_c, final_law = condition_states(c, stringing, temps_c, condition, start_c, law)
+    except ValueError as exc:
+        raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
+                           "creep_allowance_c in its [stringing] table") from None
+    h_n = changes_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, start_c, w_n_m, np.asarray(states_c, float),
+                                  law, final_law)
+    if key is not None:
+        shared[key] = h_n
+    return h_n
 
 
 def condition_states(conductor, stringing, temps_c, condition, start_c, initial_law):

@@ -19,7 +19,7 @@ from routesag.errors import ProjectError, SolveError
 from routesag.physics.catenary import mean_tension, support_tensions
 from routesag.physics.conductor3d import swung_span
 from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_load
-from routesag.physics.section_solver import section_change_of_state_by_law
+from routesag.physics.section_solver import section_change_of_state_by_law, section_knee_point_temperature_c
 from routesag.physics.state_change import change_of_state_by_law
 from routesag.physics.two_material import creep_strain_for_final_tension, knee_point_temperature_c
 from routesag.pipeline import Stage
@@ -46,6 +46,7 @@ class SolveTensions(Stage):
                 # a bad stringing tension is one problem, not one per section
                 stringing_tension_n(project, wire.conductor, wire.stringing)
         rows, problems = [], []
+        solved = SharedSolutions(section_tensions)
         ctx.notes["stringing_method"] = {w.name: w.stringing.method for _, s in data["sections"].iterrows()
                                          for w in project.line_wires(s["line_id"])}
         ctx.notes["conductor_model"] = {w.name: w.conductor.model for _, s in data["sections"].iterrows()
@@ -66,12 +67,52 @@ class SolveTensions(Stage):
                 try:
                     rows += [dict(row, wire=wire.name, stringing_temperature_c=stringing.temperature_c,
                                   **as_found_columns(source, state))
-                             for row in section_tensions(own, project, wire.conductor, stringing, spans)]
+                             for row in solved(own, project, wire.conductor, stringing, spans)]
                 except SolveError as exc:  # report every section, wire and case that fails, together
                     problems.extend(exc.problems)
         if problems:
             raise SolveError(problems)
         return {"tensions": pd.DataFrame(rows)}
+
+
+class SharedSolutions:
+    """Calls ``solve(section, project, conductor, stringing, spans)`` once per distinct set of inputs.
+
+    The wires of a line often share conductor, stringing and span geometry exactly; they then get the
+    same rows (copies) or the same error. Inputs are matched by exact value: the section's id and
+    ruling span, the conductor and stringing (frozen dataclasses, compared field by field) and the
+    bytes of the spans' ``span_m`` and ``dz_m`` (a NaN field never matches, so it is solved again).
+    Inputs that cannot be hashed are solved every time.
+    """
+
+    def __init__(self, solve):
+        self._solve = solve
+        self._done = {}
+
+    def __call__(self, section, project, conductor, stringing, spans):
+        key = self._key(section, conductor, stringing, spans)
+        if key is None:
+            return self._solve(section, project, conductor, stringing, spans)
+        if key not in self._done:
+            try:
+                self._done[key] = (self._solve(section, project, conductor, stringing, spans), None)
+            except SolveError as exc:
+                self._done[key] = (None, exc)
+        rows, error = self._done[key]
+        if error is not None:
+            raise SolveError(list(error.problems))
+        return [dict(row) for row in rows]
+
+    @staticmethod
+    def _key(section, conductor, stringing, spans):
+        ruling_m = float(section["ruling_span_m"])
+        spans_m, dz_m = _span_geometry(ruling_m, spans)
+        key = (section["section_id"], ruling_m, conductor, stringing, spans_m.tobytes(), dz_m.tobytes())
+        try:
+            hash(key)
+        except TypeError:
+            return None
+        return key
 
 
 @dataclass(frozen=True)
@@ -219,9 +260,19 @@ def knee_points(carry: StateCarrier, h0_n, laws) -> dict:
     """Knee-point temperature of each condition [degC], bare wire (NaN for a linear conductor or outside the search)."""
     knees = {f"knee_point_{condition}_c": math.nan for condition in ("initial", "final")}
     for condition, law in laws.items():
-        knees[f"knee_point_{condition}_c"] = knee_point_temperature_c(
-            lambda t: carry.bare_mean_tension_n(h0_n, t, laws["initial"], law), law)
+        knees[f"knee_point_{condition}_c"] = _knee_point_c(carry, h0_n, laws["initial"], law)
     return knees
+
+
+def _knee_point_c(carry: StateCarrier, h0_n, initial_law, law) -> float:
+    """One root over the tension; where that form finds no sign change, the root over temperature of
+    whole changes of state (slower, same knee)."""
+    spans_m, dz_m = (carry.spans_m, carry.dz_m) if carry.method == "section" else ([carry.ruling_m], [0.0])
+    try:
+        return section_knee_point_temperature_c(spans_m, dz_m, h0_n, carry.bare_n_m, carry.stringing_c,
+                                                carry.bare_n_m, initial_law, law)
+    except SolveError:
+        return knee_point_temperature_c(lambda t: carry.bare_mean_tension_n(h0_n, t, initial_law, law), law)
 
 
 def solve_case(where, case, h0_n, carry: StateCarrier, conductor, stringing, ice_density_kg_m3,
