@@ -255,6 +255,19 @@ class TerrainSampler:
             out[inside] = self._interpolate(col_f[inside], row_f[inside])
         return out
 
+    def sample_scattered(self, x, y, crs=None):
+        """As :meth:`sample`, for points far apart (the structures of a line): no window is held.
+
+        Each point then reads only the cells it needs (usually one raster block
+        decoded) instead of a window grown by :attr:`hold_margin_cells`, which
+        may straddle four blocks; the values are the same.
+        """
+        held, self.hold_windows = self.hold_windows, 0
+        try:
+            return self.sample(x, y, crs=crs)
+        finally:
+            self.hold_windows = held
+
     def grid_coords(self, x, y, crs=None):
         """Continuous grid coordinates ``(u, v)`` of points: integer values are columns / rows of cell centres.
 

@@ -177,71 +177,76 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
     return tension_root(residual, low, high, "change of state")
 
 
-def changes_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperatures2_c,
+def changes_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
                             law1, law2):
-    """:func:`change_of_state_by_law` for many states 2 at once (one state 1), vectorised [N].
+    """:func:`change_of_state_by_law` for many level spans and state pairs at once, vectorised [N].
 
-    ``weight2_n_m`` and ``temperatures2_c`` broadcast against each other; the
-    result has their shape. Each element is solved on the same physical
-    range and to the same tolerance as the scalar solver (1e-9 N plus
-    1e-13 relative, :func:`.roots.bracketed_roots`), so the two agree within
-    it. Any element the vectorised path cannot settle (an input out of range,
-    no sign change) is handed to the scalar solver, which raises its error.
+    Every argument but the two laws broadcasts against the others; the
+    result has the broadcast shape. Each element is solved to the scalar
+    solver's tolerance (1e-9 N plus 1e-13 relative, :func:`.roots.bracketed_roots`)
+    on a bracket around the parabolic estimate whose both ends are physical
+    (mean tension below the law's least EA: inside :func:`physical_tension_range`,
+    where the residual falls with ``H`` and has one root), so both find the same
+    root within that tolerance. An element without such a bracket (out of
+    range inputs, a root far from the estimate) is solved by the scalar solver
+    instead, which also raises its errors.
 
     Raises
     ------
     routesag.errors.SolveError
         As :func:`change_of_state_by_law`, for the first failing element.
     """
-    w2, t2 = np.broadcast_arrays(np.asarray(weight2_n_m, dtype=float), np.asarray(temperatures2_c, dtype=float))
-    shape = w2.shape
-    w2, t2 = w2.ravel(), t2.ravel()
-    if w2.size == 0:
-        return np.empty(shape)
-
-    def scalar(i):
-        return change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, w2[i], t2[i], law1, law2)
-
-    span_m, tension1_n, weight1_n_m = float(span_m), float(tension1_n), float(weight1_n_m)
-    valid = (np.isfinite([span_m, tension1_n, weight1_n_m]).all() and min(span_m, tension1_n, weight1_n_m) > 0
-             and np.all(np.isfinite(w2) & (w2 > 0)) and float(law2.axial_stiffness_n) > 0
-             and law1.stretch_ratio(0.0, temperature1_c) > 0 and np.all(law2.stretch_ratio(0.0, t2) > 0)
-             and mean_tension(span_m, 0.0, tension1_n, weight1_n_m) < law1.least_stiffness_n)
-    ranges = [_physical_tension_range(span_m, float(w), float(law2.least_stiffness_n)) for w in w2] if valid else []
-    if not valid or any(r is None for r in ranges):
-        for i in range(w2.size):
-            scalar(i)  # raises the scalar solver's message for the first bad state
-    low_limit, high_limit = np.array(ranges).T
-    target_m = _unstressed_length(span_m, tension1_n, weight1_n_m, temperature1_c, law1)
-
-    def residual(tension_n):
-        stretched, mean_n = length_and_mean_tension(span_m, 0.0, tension_n, w2)
-        return stretched / law2.stretch_ratio(mean_n, t2) - target_m
-
-    guess = np.clip(parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, w2, t2,
-                                              float(law2.axial_stiffness_n), 1.0, law2.expansion_per_c),
-                    low_limit, high_limit)
-    low, high = _bracket_many(residual, guess, low_limit, high_limit)
-    if np.isnan(low).any():
-        for i in np.flatnonzero(np.isnan(low)):
-            scalar(i)
-    return bracketed_roots(residual, low, high, 1e-9, 1e-13, what="change of state").reshape(shape)
+    args = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in
+                                 (span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c)))
+    shape = args[0].shape
+    span, h1, w1, t1, w2, t2 = (a.ravel() for a in args)
+    out = np.full(span.size, np.nan)
+    with np.errstate(all="ignore"):
+        ok = (np.isfinite(span) & np.isfinite(h1) & np.isfinite(w1) & np.isfinite(w2) & np.isfinite(t1)
+              & np.isfinite(t2) & (span > 0) & (h1 > 0) & (w1 > 0) & (w2 > 0) & (float(law2.axial_stiffness_n) > 0)
+              & (law1.stretch_ratio(0.0, t1) > 0) & (law2.stretch_ratio(0.0, t2) > 0)
+              & (mean_tension(span, 0.0, h1, w1) < law1.least_stiffness_n))
+    if ok.any():
+        out[ok] = _vector_changes(span[ok], h1[ok], w1[ok], t1[ok], w2[ok], t2[ok], law1, law2)
+    for i in np.flatnonzero(np.isnan(out)):  # the scalar solver: its answer, or its error
+        out[i] = change_of_state_by_law(span[i], h1[i], w1[i], t1[i], w2[i], t2[i], law1, law2)
+    return out.reshape(shape)
 
 
-def _bracket_many(residual, guess, low_limit, high_limit):
-    """``[guess/2, 2 guess]`` inside the limits where it brackets the sign change, else the limits themselves
-    (NaN where even they do not)."""
-    low = np.minimum(np.maximum(guess / 2.0, low_limit), high_limit)
-    high = np.maximum(np.minimum(guess * 2.0, high_limit), low_limit)
-    at_low, at_high = residual(low), residual(high)
-    too_high, too_low = at_low < 0, at_high > 0  # the root lies below ``low`` / above ``high``
-    if too_high.any() or too_low.any():
-        low, high = (np.where(too_high, low_limit, np.where(too_low, high, low)),
-                     np.where(too_high, low, np.where(too_low, high_limit, high)))
-        at_low, at_high = residual(low), residual(high)
-        bad = ~((at_low >= 0) & (at_high <= 0))
-        low, high = np.where(bad, np.nan, low), np.where(bad, np.nan, high)
-    return low, high
+def _vector_changes(span, h1, w1, t1, w2, t2, law1, law2):
+    """Roots where a physical bracket around the parabolic estimate is found; NaN elsewhere."""
+    target_m = _unstressed_length_array(span, h1, w1, t1, law1)
+    least_n = float(law2.least_stiffness_n)
+
+    def residual_and_mean(tension_n, keep=slice(None)):
+        stretched, mean_n = length_and_mean_tension(span[keep], 0.0, tension_n, w2[keep])
+        return stretched / law2.stretch_ratio(mean_n, t2[keep]) - target_m[keep], mean_n
+
+    guess = parabolic_change_of_state(span, h1, w1, t1, w2, t2, float(law2.axial_stiffness_n), 1.0,
+                                      law2.expansion_per_c)
+    low, high = guess / 2.0, guess * 2.0
+    at_low, mean_low = residual_and_mean(low)
+    at_high, mean_high = residual_and_mean(high)
+    for _ in range(3):  # widen by 4 towards the root where the estimate's bracket misses it
+        below, above = at_low < 0, at_high > 0
+        if not (below.any() or above.any()):
+            break
+        low, high = np.where(below, low / 4.0, np.where(above, high, low)), \
+            np.where(below, low, np.where(above, high * 4.0, high))
+        at_low, mean_low = residual_and_mean(low)
+        at_high, mean_high = residual_and_mean(high)
+    good = ((at_low >= 0) & (at_high <= 0) & (mean_low < least_n) & (mean_high < least_n)
+            & np.isfinite(at_low) & np.isfinite(at_high))
+    out = np.full(span.size, np.nan)
+    if good.any():
+        out[good] = bracketed_roots(lambda h: residual_and_mean(h, good)[0], low[good], high[good], 1e-9, 1e-13,
+                                    what="change of state")
+    return out
+
+
+def _unstressed_length_array(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):
+    stretched, tension = length_and_mean_tension(span_m, 0.0, horizontal_tension_n, weight_n_m)
+    return stretched / law.stretch_ratio(tension, temperature_c)
 
 
 def _unstressed_length(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):

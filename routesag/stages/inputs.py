@@ -5,7 +5,7 @@ import numpy as np
 
 from routesag.errors import DataError
 from routesag.io.extents import extent_message
-from routesag.io.hashing import fingerprint
+from routesag.io.hashing import fingerprint_in_background
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
@@ -49,10 +49,14 @@ class ReadInputs(Stage):
 
 
 def record_inputs(project, ctx) -> None:
-    """Hash every input as the run starts reading them; run_info reports these, not a later file's."""
+    """Hash every input as the run starts reading them; run_info reports these, not a later file's.
+
+    The signature is taken now and the hash in a background thread (the terrain is hundreds of MB): the
+    output stage waits for it and refuses the run if the signature changed meanwhile.
+    """
     for role, path in project.input_paths().items():
         if path.exists():
-            ctx.inputs[role] = (path, *fingerprint(path))
+            ctx.inputs[role] = (path, *fingerprint_in_background(path))
 
 
 def read_and_check(project, ctx=None):
@@ -105,7 +109,7 @@ def locate_attachments(structures, terrain, source, original=None):
     need = np.isnan(s["ground_z_m"].to_numpy(dtype=float))
     ground = s["ground_z_m"].to_numpy(dtype=float).copy()
     if need.any():
-        ground[need] = terrain.sample(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs)
+        ground[need] = terrain.sample_scattered(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs)
     missing = np.isnan(ground)
     if missing.any():
         own = s if original is None else original
@@ -141,8 +145,8 @@ def check_surveyed_ground(structures, terrain, source, inputs, warn) -> None:
         return
     tolerance_m = float(inputs.get("ground_z_tolerance_m", 5.0))
     given = structures["ground_z_m"].to_numpy(dtype=float)[surveyed]
-    terrain_z = terrain.sample(structures["x"].to_numpy()[surveyed], structures["y"].to_numpy()[surveyed],
-                               crs=structures.crs)
+    terrain_z = terrain.sample_scattered(structures["x"].to_numpy()[surveyed],
+                                         structures["y"].to_numpy()[surveyed], crs=structures.crs)
     with np.errstate(invalid="ignore"):
         far = np.abs(given - terrain_z) > tolerance_m
     ids = structures.loc[surveyed, "structure_id"].to_numpy()

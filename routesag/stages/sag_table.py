@@ -16,6 +16,8 @@ References
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 
@@ -49,26 +51,27 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
     The stringing tension of each section and wire is read from ``tensions``
     (``stringing_tension_n``), so a design tension found from the limits is used.
     ``conditions``: ``initial`` (as strung) and/or ``final`` (after creep: the
-    initial state at the temperature plus the wire's creep allowance). Wires
-    whose ruling span, stringing state, conductor and stringing are exactly
-    equal share one change of state per temperature (:func:`ruling_span_tensions`).
+    initial state at the temperature plus the wire's creep allowance). The
+    changes of state of every section, wire and temperature are solved
+    together, one vectorised solve per pair of stretch laws.
     """
     first = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])
     stringing_n = first["stringing_tension_n"]
     # the temperature of the state the tensions start from (the survey's when re-rated from the as-found state)
     stringing_c = first["stringing_temperature_c"] if "stringing_temperature_c" in first else None
     by_wire = dict(tuple(wire_spans.groupby(["section_id", "wire"], sort=False)))
-    shared = {}
-    parts = []
+    tables = []
     for _, section in sections.iterrows():
         for wire in project.line_wires(section["line_id"]):
             key = (section["section_id"], wire.name)
             start_c = None if stringing_c is None else float(stringing_c[key])
-            parts.extend(section_columns(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
-                                         condition, start_c, shared) for condition in conditions)
-    if not parts:
+            tables.extend(SagTableTask.of(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
+                                          condition, start_c) for condition in conditions)
+    if not tables:
         return pd.DataFrame(columns=COLUMNS)
-    return pd.DataFrame({name: np.concatenate([part[name] for part in parts]) for name in COLUMNS})
+    solve_ruling_spans(tables)
+    columns = [task.columns() for task in tables]
+    return pd.DataFrame({name: np.concatenate([part[name] for part in columns]) for name in COLUMNS})
 
 
 def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
@@ -82,76 +85,100 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
     ProjectError
         ``final`` for a wire without a creep allowance.
     """
-    columns = section_columns(section, spans, stringing_tension_n, wire, temperatures_c, condition,
-                              stringing_temperature_c)
-    return pd.DataFrame(columns)[COLUMNS]
+    task = SagTableTask.of(section, spans, stringing_tension_n, wire, temperatures_c, condition,
+                           stringing_temperature_c)
+    solve_ruling_spans([task])
+    return pd.DataFrame(task.columns())[COLUMNS]
 
 
-def section_columns(section, spans, stringing_tension_n, wire, temperatures_c, condition="initial",
-                    stringing_temperature_c=None, shared=None) -> dict:
-    """:func:`section_sag_table` as numpy columns (:data:`COLUMNS`); ``shared`` caches the ruling span's
-    tensions between calls (see :func:`ruling_span_tensions`)."""
-    c = wire.conductor
-    start_c = wire.stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
-    w_n_m = float(bare_weight_n_m(c.mass_kg_m))
-    ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
-    temps = np.asarray(temperatures_c, dtype=float)
-    h_n = ruling_span_tensions(ruling_m, stringing_tension_n, start_c, wire, temps, condition,
-                               {} if shared is None else shared)
-    span_m = np.concatenate([[ruling_m], spans["span_m"].to_numpy(dtype=float)])[:, None]
-    dz_m = np.concatenate([[0.0], spans["dz_m"].to_numpy(dtype=float)])[:, None]
-    catenary_m = h_n[None, :] / w_n_m
-    at_a, at_b = support_tensions(span_m, dz_m, h_n[None, :], w_n_m)
-    shape = (len(span_m), len(temps))
+@dataclass
+class SagTableTask:
+    """One wire's sag table in one tension section and condition: its ruling span's states, then its rows."""
 
-    def labels(first, values):
-        return np.repeat(np.array([first] + list(values), dtype=object), shape[1])
+    section: pd.Series
+    spans: pd.DataFrame
+    wire: object
+    condition: str
+    temps_c: np.ndarray             # table temperatures [degC]
+    states_c: np.ndarray            # temperatures the stringing state is carried to [degC]
+    start_c: float                  # temperature of the stringing state [degC]
+    stringing_tension_n: float
+    weight_n_m: float               # bare wire [N/m]
+    ruling_m: float
+    laws: tuple                     # stretch laws of the stringing state and of the condition
+    horizontal_tension_n: np.ndarray | None = None
 
-    return {
-        "section_id": np.full(shape[0] * shape[1], section["section_id"], dtype=object),
-        "wire": np.full(shape[0] * shape[1], wire.name, dtype=object),
-        "kind": labels("ruling", ["span"] * (shape[0] - 1)),
-        "span_id": labels(None, spans["span_id"]), "from_id": labels(None, spans["from_id"]),
-        "to_id": labels(None, spans["to_id"]),
-        "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
-        "temperature_c": np.broadcast_to(temps, shape).ravel(),
-        "condition": np.full(shape[0] * shape[1], condition, dtype=object),
-        "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
-        "max_tension_n": np.maximum(at_a, at_b).ravel(),
-        "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
-        "catenary_m": np.broadcast_to(catenary_m, shape).ravel(),
-    }
+    @classmethod
+    def of(cls, section, spans, stringing_tension_n, wire, temperatures_c, condition="initial",
+           stringing_temperature_c=None) -> "SagTableTask":
+        """The task, its laws and state temperatures set.
+
+        Raises
+        ------
+        ProjectError
+            ``final`` for a wire without a creep allowance.
+        """
+        c, stringing = wire.conductor, wire.stringing
+        start_c = stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
+        temps = np.asarray(temperatures_c, dtype=float)
+        law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
+        try:
+            states_c, final_law = condition_states(c, stringing, temps, condition, start_c, law)
+        except ValueError as exc:
+            raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
+                               "creep_allowance_c in its [stringing] table") from None
+        return cls(section, spans, wire, condition, temps, np.asarray(states_c, dtype=float), start_c,
+                   stringing_tension_n, float(bare_weight_n_m(c.mass_kg_m)),
+                   float(spans["ruling_span_m"].iloc[0]), (law, final_law))  # the wire's own spans
+
+    def columns(self) -> dict:
+        """The rows as numpy columns (:data:`COLUMNS`), ruling span first."""
+        spans, h_n, w_n_m = self.spans, self.horizontal_tension_n, self.weight_n_m
+        span_m = np.concatenate([[self.ruling_m], spans["span_m"].to_numpy(dtype=float)])[:, None]
+        dz_m = np.concatenate([[0.0], spans["dz_m"].to_numpy(dtype=float)])[:, None]
+        catenary_m = h_n[None, :] / w_n_m
+        at_a, at_b = support_tensions(span_m, dz_m, h_n[None, :], w_n_m)
+        shape = (len(span_m), len(self.temps_c))
+        size = shape[0] * shape[1]
+
+        def labels(column):
+            return np.repeat(np.array([None] + list(spans[column]), dtype=object), shape[1])
+
+        return {
+            "section_id": np.full(size, self.section["section_id"], dtype=object),
+            "wire": np.full(size, self.wire.name, dtype=object),
+            "kind": np.repeat(np.array(["ruling"] + ["span"] * (shape[0] - 1), dtype=object), shape[1]),
+            "span_id": labels("span_id"), "from_id": labels("from_id"), "to_id": labels("to_id"),
+            "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
+            "temperature_c": np.broadcast_to(self.temps_c, shape).ravel(),
+            "condition": np.full(size, self.condition, dtype=object),
+            "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
+            "max_tension_n": np.maximum(at_a, at_b).ravel(),
+            "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
+            "catenary_m": np.broadcast_to(catenary_m, shape).ravel(),
+        }
 
 
-def ruling_span_tensions(ruling_m, stringing_tension_n, start_c, wire, temps_c, condition, shared) -> np.ndarray:
-    """Horizontal tension of the ruling span at each temperature [N], all temperatures in one vectorised
-    change of state; solved once per exact (ruling span, stringing state, conductor, stringing, condition,
-    temperatures) in ``shared``.
+def solve_ruling_spans(tasks) -> None:
+    """Set every task's ruling-span tensions: one :func:`changes_of_state_by_law` per pair of equal laws."""
+    groups = {}
+    for task in tasks:
+        try:
+            groups.setdefault(task.laws, []).append(task)
+        except TypeError:  # laws that cannot be compared by value: solved on their own
+            groups[id(task)] = [task]
+    for group in groups.values():
+        law, final_law = group[0].laws
+        sizes = [len(task.states_c) for task in group]
 
-    Raises
-    ------
-    ProjectError
-        ``final`` for a wire without a creep allowance.
-    """
-    c, stringing = wire.conductor, wire.stringing
-    key = (ruling_m, stringing_tension_n, start_c, c, stringing, condition, temps_c.tobytes())
-    try:
-        if key in shared:
-            return shared[key]
-    except TypeError:  # an unhashable conductor: solve every time
-        shared, key = {}, None
-    w_n_m = float(bare_weight_n_m(c.mass_kg_m))
-    law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
-    try:
-        states_c, final_law = condition_states(c, stringing, temps_c, condition, start_c, law)
-    except ValueError as exc:
-        raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
-                           "creep_allowance_c in its [stringing] table") from None
-    h_n = changes_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, start_c, w_n_m, np.asarray(states_c, float),
-                                  law, final_law)
-    if key is not None:
-        shared[key] = h_n
-    return h_n
+        def each(name):
+            return np.concatenate([np.full(n, getattr(task, name)) for task, n in zip(group, sizes)])
+
+        h_n = changes_of_state_by_law(each("ruling_m"), each("stringing_tension_n"), each("weight_n_m"),
+                                      each("start_c"), each("weight_n_m"),
+                                      np.concatenate([task.states_c for task in group]), law, final_law)
+        for task, part in zip(group, np.split(h_n, np.cumsum(sizes)[:-1])):
+            task.horizontal_tension_n = part
 
 
 def condition_states(conductor, stringing, temps_c, condition, start_c, initial_law):
