@@ -256,12 +256,21 @@ class TerrainSampler:
         return out
 
     def sample_scattered(self, x, y, crs=None):
-        """As :meth:`sample`, for points far apart (the structures of a line): no window is held.
+        """As :meth:`sample`, for points that may lie far apart (the structures of a line); the same values.
 
-        Each point then reads only the cells it needs (usually one raster block
-        decoded) instead of a window grown by :attr:`hold_margin_cells`, which
-        may straddle four blocks; the values are the same.
+        Points too spread out for one window (see :attr:`sparse_min_cells`) are
+        read with no window held: each then reads only the cells it needs
+        (usually one raster block decoded) instead of a window grown by
+        :attr:`hold_margin_cells`, which may straddle four blocks. Points close
+        together are one window read, held as :meth:`sample` holds it.
         """
+        u, v = self.grid_coords(x, y, crs=crs)
+        finite = np.isfinite(u) & np.isfinite(v)
+        if not finite.any():
+            return self.sample(x, y, crs=crs)
+        cells = (np.ptp(v[finite]) + 2.0) * (np.ptp(u[finite]) + 2.0)
+        if cells <= max(self.sparse_min_cells, self.sparse_cells_per_point * int(finite.sum())):
+            return self.sample(x, y, crs=crs)
         held, self.hold_windows = self.hold_windows, 0
         try:
             return self.sample(x, y, crs=crs)
