@@ -1,6 +1,8 @@
 """Stage: read and check the structures and open the terrain."""
 from __future__ import annotations
 
+import os
+
 import numpy as np
 
 from routesag.errors import DataError
@@ -15,6 +17,9 @@ from routesag.stages.terrain import warn_implausible
 #: Terrain windows held by the sampler: more than a section's spans, so the terrain stage finds every span's
 #: cells still in memory after the conductors were placed on them (one read per span; at most ~2 MB each).
 HELD_TERRAIN_WINDOWS = 16
+#: Threads reading the ground under structures: each decodes whole raster blocks, one per structure of a long
+#: line, and GDAL lets go of the GIL meanwhile.
+GROUND_READ_THREADS = min(2, os.cpu_count() or 1)
 
 
 class ReadInputs(Stage):
@@ -109,7 +114,8 @@ def locate_attachments(structures, terrain, source, original=None):
     need = np.isnan(s["ground_z_m"].to_numpy(dtype=float))
     ground = s["ground_z_m"].to_numpy(dtype=float).copy()
     if need.any():
-        ground[need] = terrain.sample_scattered(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs)
+        ground[need] = terrain.sample_scattered(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs,
+                                                threads=GROUND_READ_THREADS)
     missing = np.isnan(ground)
     if missing.any():
         own = s if original is None else original
@@ -146,7 +152,8 @@ def check_surveyed_ground(structures, terrain, source, inputs, warn) -> None:
     tolerance_m = float(inputs.get("ground_z_tolerance_m", 5.0))
     given = structures["ground_z_m"].to_numpy(dtype=float)[surveyed]
     terrain_z = terrain.sample_scattered(structures["x"].to_numpy()[surveyed],
-                                         structures["y"].to_numpy()[surveyed], crs=structures.crs)
+                                         structures["y"].to_numpy()[surveyed], crs=structures.crs,
+                                         threads=GROUND_READ_THREADS)
     with np.errstate(invalid="ignore"):
         far = np.abs(given - terrain_z) > tolerance_m
     ids = structures.loc[surveyed, "structure_id"].to_numpy()
