@@ -71,14 +71,22 @@ class BackgroundDigest:
     """SHA-256 of an input (:func:`sha256_path`) taken in a thread while the run goes on.
 
     hashlib and file reads release the GIL, so a raster of hundreds of MB is hashed on a spare core
-    while the line is solved, not before it. :meth:`result` waits for it (or re-raises its error).
+    while the line is solved, not before it. ``start=False`` waits for :meth:`start` (or the first
+    :meth:`result`); :meth:`result` waits for the digest (or re-raises its error).
     """
 
-    def __init__(self, path):
+    def __init__(self, path, start=True):
         self._digest, self._error = None, None
         self._thread = threading.Thread(target=self._hash, args=(Path(path),), daemon=True,
                                         name=f"sha256 {Path(path).name}")
-        self._thread.start()
+        self._started = threading.Lock()
+        if start:
+            self.start()
+
+    def start(self) -> None:
+        """Begin hashing (once)."""
+        if self._started.acquire(blocking=False):
+            self._thread.start()
 
     def _hash(self, path):
         try:
@@ -87,16 +95,17 @@ class BackgroundDigest:
             self._error = exc
 
     def result(self) -> str:
+        self.start()
         self._thread.join()
         if self._error is not None:
             raise self._error
         return self._digest
 
 
-def fingerprint_in_background(path) -> tuple[BackgroundDigest, tuple]:
-    """As :func:`fingerprint`, the digest computed in a thread (:class:`BackgroundDigest`)."""
+def fingerprint_in_background(path, start=True) -> tuple[BackgroundDigest, tuple]:
+    """As :func:`fingerprint`, the digest computed in a thread (:class:`BackgroundDigest`, ``start`` as there)."""
     before = signature(path)
-    return BackgroundDigest(path), before
+    return BackgroundDigest(path, start), before
 
 
 def changed_since(path, recorded_signature) -> bool:

@@ -31,8 +31,13 @@ class ReadInputs(Stage):
     def run(self, data, ctx):
         project = data["project"]
         source = project.structures_path
-        record_inputs(project, ctx)
-        structures, terrain = read_and_check(project, ctx)
+        digests = record_inputs(project, ctx)
+        try:
+            structures, terrain = read_and_check(project, ctx)
+        finally:
+            for role, digest in digests.items():  # the small inputs now; the terrain after the ground is read
+                if role != "terrain":
+                    digest.start()
         try:
             original = structures.copy()
             structures, crs, note = to_working_crs(structures, source)
@@ -44,6 +49,9 @@ class ReadInputs(Stage):
         except BaseException:
             terrain.close()
             raise
+        finally:
+            if "terrain" in digests:
+                digests["terrain"].start()
         ctx.notes["crs"] = crs.to_string()
         ctx.notes["crs_note"] = note
         ctx.notes["terrain_crs"] = terrain.crs.to_string()
@@ -54,14 +62,25 @@ class ReadInputs(Stage):
 
 
 def record_inputs(project, ctx) -> None:
-    """Hash every input as the run starts reading them; run_info reports these, not a later file's.
+    """Take every input's signature as the run starts reading them; run_info reports their hashes.
 
-    The signature is taken now and the hash in a background thread (the terrain is hundreds of MB): the
-    output stage waits for it and refuses the run if the signature changed meanwhile.
+    The hashes are taken in background threads, started by the caller (:class:`BackgroundDigest`): the
+    terrain's is hundreds of MB, so it starts once the ground under the structures is read and runs on a
+    spare core while the line is solved. The output stage waits for them and refuses the run if a
+    signature changed meanwhile, so a hash is always of the file the run read.
+
+    Returns
+    -------
+    dict
+        Input role -> its :class:`BackgroundDigest`, not yet started.
     """
+    digests = {}
     for role, path in project.input_paths().items():
         if path.exists():
-            ctx.inputs[role] = (path, *fingerprint_in_background(path))
+            digest, before = fingerprint_in_background(path, start=False)
+            ctx.inputs[role] = (path, digest, before)
+            digests[role] = digest
+    return digests
 
 
 def read_and_check(project, ctx=None):

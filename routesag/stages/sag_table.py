@@ -17,6 +17,7 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -59,13 +60,15 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
     stringing_n = first["stringing_tension_n"]
     # the temperature of the state the tensions start from (the survey's when re-rated from the as-found state)
     stringing_c = first["stringing_temperature_c"] if "stringing_temperature_c" in first else None
-    by_wire = dict(tuple(wire_spans.groupby(["section_id", "wire"], sort=False)))
+    positions = wire_spans.groupby(["section_id", "wire"], sort=False).indices
+    columns = {name: wire_spans[name].to_numpy() for name in SpanColumns._fields}
     tables = []
-    for _, section in sections.iterrows():
-        for wire in project.line_wires(section["line_id"]):
-            key = (section["section_id"], wire.name)
+    for section_id, line_id in zip(sections["section_id"], sections["line_id"]):
+        for wire in project.line_wires(line_id):
+            key = (section_id, wire.name)
             start_c = None if stringing_c is None else float(stringing_c[key])
-            tables.extend(SagTableTask.of(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
+            spans = SpanColumns(*(values[positions[key]] for values in columns.values()))
+            tables.extend(SagTableTask.of(section_id, spans, float(stringing_n[key]), wire, temperatures_c,
                                           condition, start_c) for condition in conditions)
     if not tables:
         return pd.DataFrame(columns=COLUMNS)
@@ -85,18 +88,30 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
     ProjectError
         ``final`` for a wire without a creep allowance.
     """
-    task = SagTableTask.of(section, spans, stringing_tension_n, wire, temperatures_c, condition,
+    columns = SpanColumns(*(spans[name].to_numpy() for name in SpanColumns._fields))
+    task = SagTableTask.of(section["section_id"], columns, stringing_tension_n, wire, temperatures_c, condition,
                            stringing_temperature_c)
     solve_ruling_spans([task])
     return pd.DataFrame(task.columns())[COLUMNS]
+
+
+class SpanColumns(NamedTuple):
+    """The columns of one wire's spans in a section that the sag table uses, as numpy arrays."""
+
+    span_id: np.ndarray
+    from_id: np.ndarray
+    to_id: np.ndarray
+    span_m: np.ndarray
+    dz_m: np.ndarray
+    ruling_span_m: np.ndarray
 
 
 @dataclass
 class SagTableTask:
     """One wire's sag table in one tension section and condition: its ruling span's states, then its rows."""
 
-    section: pd.Series
-    spans: pd.DataFrame
+    section_id: object
+    spans: SpanColumns
     wire: object
     condition: str
     temps_c: np.ndarray             # table temperatures [degC]
@@ -109,7 +124,7 @@ class SagTableTask:
     horizontal_tension_n: np.ndarray | None = None
 
     @classmethod
-    def of(cls, section, spans, stringing_tension_n, wire, temperatures_c, condition="initial",
+    def of(cls, section_id, spans: SpanColumns, stringing_tension_n, wire, temperatures_c, condition="initial",
            stringing_temperature_c=None) -> "SagTableTask":
         """The task, its laws and state temperatures set.
 
@@ -127,28 +142,28 @@ class SagTableTask:
         except ValueError as exc:
             raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
                                "creep_allowance_c in its [stringing] table") from None
-        return cls(section, spans, wire, condition, temps, np.asarray(states_c, dtype=float), start_c,
+        return cls(section_id, spans, wire, condition, temps, np.asarray(states_c, dtype=float), start_c,
                    stringing_tension_n, float(bare_weight_n_m(c.mass_kg_m)),
-                   float(spans["ruling_span_m"].iloc[0]), (law, final_law))  # the wire's own spans
+                   float(spans.ruling_span_m[0]), (law, final_law))  # the wire's own spans
 
     def columns(self) -> dict:
         """The rows as numpy columns (:data:`COLUMNS`), ruling span first."""
         spans, h_n, w_n_m = self.spans, self.horizontal_tension_n, self.weight_n_m
-        span_m = np.concatenate([[self.ruling_m], spans["span_m"].to_numpy(dtype=float)])[:, None]
-        dz_m = np.concatenate([[0.0], spans["dz_m"].to_numpy(dtype=float)])[:, None]
+        span_m = np.concatenate([[self.ruling_m], spans.span_m.astype(float)])[:, None]
+        dz_m = np.concatenate([[0.0], spans.dz_m.astype(float)])[:, None]
         catenary_m = h_n[None, :] / w_n_m
         at_a, at_b = support_tensions(span_m, dz_m, h_n[None, :], w_n_m)
         shape = (len(span_m), len(self.temps_c))
         size = shape[0] * shape[1]
 
-        def labels(column):
-            return np.repeat(np.array([None] + list(spans[column]), dtype=object), shape[1])
+        def labels(values):
+            return np.repeat(np.concatenate([[None], values.astype(object)]), shape[1])
 
         return {
-            "section_id": np.full(size, self.section["section_id"], dtype=object),
+            "section_id": np.full(size, self.section_id, dtype=object),
             "wire": np.full(size, self.wire.name, dtype=object),
             "kind": np.repeat(np.array(["ruling"] + ["span"] * (shape[0] - 1), dtype=object), shape[1]),
-            "span_id": labels("span_id"), "from_id": labels("from_id"), "to_id": labels("to_id"),
+            "span_id": labels(spans.span_id), "from_id": labels(spans.from_id), "to_id": labels(spans.to_id),
             "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
             "temperature_c": np.broadcast_to(self.temps_c, shape).ravel(),
             "condition": np.full(size, self.condition, dtype=object),
