@@ -14,8 +14,11 @@ from routesag.stages.as_found import reference_stringing
 from routesag.stages.sag_table import section_sag_table
 from routesag.stages.tensions import section_tensions
 from tests.conftest import X0, Y0, write_plane_raster, write_structures
+from tests.test_wires import EARTH_WIRE
 
-# Invented line: two-material Drake phases (catalog conductor) and a small linear earth wire.
+# Invented line: two-material Drake phases (catalog conductor) and a small linear earth wire that creeps too.
+CASES = [("hot", "temperature_c = 80.0"), ("cold", 'temperature_c = -20.0\ncondition = "initial"'),
+         ("ice", "temperature_c = 0.0\nice_mm = 12.5"), ("wind", "temperature_c = 15.0\nwind_pa = 430.0")]
 PROJECT = """
 [inputs]
 structures = "structures.gpkg"
@@ -44,43 +47,7 @@ name = "C"
 name = "R"
 offset_m = 6.0
 
-[[wires]]
-name = "E"
-dz_m = 5.0
-insulated = false
-
-[wires.conductor]
-diameter_mm = 16.31
-area_mm2 = 157.2
-mass_kg_m = 0.5459
-rated_strength_kn = 50.0
-modulus_gpa = 75.0
-expansion_per_c = 18.9e-6
-
-[wires.stringing]
-temperature_c = 15.0
-tension_percent_rts = 20.0
-creep_allowance_c = 10.0
-
-[[load_cases]]
-name = "hot"
-temperature_c = 80.0
-
-[[load_cases]]
-name = "cold"
-temperature_c = -20.0
-condition = "initial"
-
-[[load_cases]]
-name = "ice"
-temperature_c = 0.0
-ice_mm = 12.5
-
-[[load_cases]]
-name = "wind"
-temperature_c = 15.0
-wind_pa = 430.0
-
+{cases}
 [clearance]
 ground_m = 7.5
 
@@ -100,7 +67,8 @@ def angled_line(tmp_path):
                      heights=[20.0, 24.0, 18.0, 22.0, 30.0, 19.0, 21.0],
                      extra={"insulator_m": [None, 2.0, 2.0, None, 2.0, 2.0, None]})
     path = tmp_path / "project.toml"
-    path.write_text(PROJECT)
+    cases = "\n".join(f'[[load_cases]]\nname = "{name}"\n{keys}\n' for name, keys in CASES)
+    path.write_text(PROJECT.format(cases=cases) + EARTH_WIRE + "creep_allowance_c = 10.0\n")
     return path
 
 
