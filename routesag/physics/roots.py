@@ -39,6 +39,24 @@ def widen_bracket(residual, guess, low_limit, high_limit):
     return None, None
 
 
+def widen_brackets(residual, guess, low, high):
+    """:func:`widen_bracket` over arrays: ``[g/2, 2g]`` inside ``[low, high]``, widened by 4 towards the sign
+    change of the falling ``residual`` up to three times; ``[low, high]`` itself where that still misses."""
+    near_low = np.clip(guess / 2.0, low, high)
+    near_high = np.clip(guess * 2.0, low, high)
+    at_low, at_high = residual(near_low), residual(near_high)
+    for _ in range(3):
+        below, above = at_low < 0, at_high > 0
+        if not (below.any() or above.any()):
+            break
+        near_low, near_high = (np.where(below, np.maximum(near_low / 4.0, low), np.where(above, near_high, near_low)),
+                               np.where(below, near_low, np.where(above, np.minimum(near_high * 4.0, high),
+                                                                  near_high)))
+        at_low, at_high = residual(near_low), residual(near_high)
+    missed = ~((at_low >= 0) & (at_high <= 0))
+    return np.where(missed, low, near_low), np.where(missed, high, near_high)
+
+
 def tension_root(residual, low_n, high_n, what: str) -> float:
     """The horizontal tension [N] in ``[low_n, high_n]`` where ``residual`` is zero (``brentq``, 1e-9 N).
 

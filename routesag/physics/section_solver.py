@@ -31,7 +31,7 @@ from scipy.optimize import brentq
 from routesag.errors import SolveError
 
 from .catenary import length_and_mean_tension
-from .roots import bracketed_roots, remembered, tension_root, widen_bracket
+from .roots import bracketed_roots, remembered, tension_root, widen_bracket, widen_brackets
 from .state_change import parabolic_change_of_state, ruling_span
 from .two_material import KNEE_SEARCH_C, LinearLaw
 
@@ -227,7 +227,7 @@ def section_changes_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, temp
                                           w2, t2, float(law2.axial_stiffness_n), 1.0, law2.expansion_per_c)
     out = np.full(n, np.nan)
     if solvable.any():
-        near_low, near_high = _near_brackets(lambda h: residual(h, solvable), guess[solvable], low[solvable],
+        near_low, near_high = widen_brackets(lambda h: residual(h, solvable), guess[solvable], low[solvable],
                                              high[solvable])
         out[solvable] = bracketed_roots(lambda h: residual(h, solvable), near_low, near_high, 1e-9, 1e-13,
                                         what="section change of state")
@@ -274,8 +274,8 @@ def section_knee_points_c(spans_m, dz_m, tension1_n, weight1_n_m, temperature1_c
         solved = (residual(low) > 0) & (residual(high) < 0)
     knee = np.full(n, np.nan)
     if solved.any():
-        near_low, near_high = _near_brackets(lambda h: residual(h, solved), np.clip(h1[solved], low[solved], high[solved]),
-                                             low[solved], high[solved])
+        start_n = np.clip(h1[solved], low[solved], high[solved])
+        near_low, near_high = widen_brackets(lambda h: residual(h, solved), start_n, low[solved], high[solved])
         root = bracketed_roots(lambda h: residual(h, solved), near_low, near_high, 1e-9, 1e-13, what="knee point")
         found = state(root, solved)[2]
         knee[solved] = np.where((found > lowest_c) & (found < highest_c), found, np.nan)
@@ -287,21 +287,3 @@ def _unstressed_lengths(spans, dz, tension_n, weight_n_m, temperature_c, law):
     length, mean_n = length_and_mean_tension(spans, dz, np.asarray(tension_n)[:, None],
                                              np.asarray(weight_n_m)[:, None])
     return np.sum(length / law.stretch_ratio(mean_n, np.asarray(temperature_c)[:, None]), axis=1)
-
-
-def _near_brackets(residual, guess, low, high):
-    """Brackets of a falling ``residual`` (sign change known on ``[low, high]``): ``[g/2, 2g]`` widened by 4
-    up to three times, else ``[low, high]``."""
-    near_low = np.clip(guess / 2.0, low, high)
-    near_high = np.clip(guess * 2.0, low, high)
-    at_low, at_high = residual(near_low), residual(near_high)
-    for _ in range(3):
-        below, above = at_low < 0, at_high > 0
-        if not (below.any() or above.any()):
-            break
-        near_low, near_high = (np.where(below, np.maximum(near_low / 4.0, low), np.where(above, near_high, near_low)),
-                               np.where(below, near_low, np.where(above, np.minimum(near_high * 4.0, high),
-                                                                  near_high)))
-        at_low, at_high = residual(near_low), residual(near_high)
-    missed = ~((at_low >= 0) & (at_high <= 0))
-    return np.where(missed, low, near_low), np.where(missed, high, near_high)

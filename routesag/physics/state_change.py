@@ -30,7 +30,7 @@ from scipy.optimize import brentq, minimize_scalar
 from routesag.errors import SolveError
 
 from .catenary import length_and_mean_tension, mean_tension
-from .roots import bracketed_roots, remembered, tension_root, widen_bracket
+from .roots import bracketed_roots, remembered, tension_root, widen_bracket, widen_brackets
 from .two_material import LinearLaw
 
 __all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "changes_of_state_by_law",
@@ -216,30 +216,21 @@ def changes_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, wei
 def _vector_changes(span, h1, w1, t1, w2, t2, law1, law2):
     """Roots where a physical bracket around the parabolic estimate is found; NaN elsewhere."""
     target_m = _unstressed_length_array(span, h1, w1, t1, law1)
-    least_n = float(law2.least_stiffness_n)
 
-    def residual_and_mean(tension_n, keep=slice(None)):
-        stretched, mean_n = length_and_mean_tension(span[keep], 0.0, tension_n, w2[keep])
-        return stretched / law2.stretch_ratio(mean_n, t2[keep]) - target_m[keep], mean_n
+    def residual(tension_n, keep=slice(None)):
+        return _unstressed_length_array(span[keep], tension_n, w2[keep], t2[keep], law2) - target_m[keep]
 
     guess = parabolic_change_of_state(span, h1, w1, t1, w2, t2, float(law2.axial_stiffness_n), 1.0,
                                       law2.expansion_per_c)
-    low, high = guess / 2.0, guess * 2.0
-    at_low, mean_low = residual_and_mean(low)
-    at_high, mean_high = residual_and_mean(high)
-    for _ in range(3):  # widen by 4 towards the root where the estimate's bracket misses it
-        below, above = at_low < 0, at_high > 0
-        if not (below.any() or above.any()):
-            break
-        low, high = np.where(below, low / 4.0, np.where(above, high, low)), \
-            np.where(below, low, np.where(above, high * 4.0, high))
-        at_low, mean_low = residual_and_mean(low)
-        at_high, mean_high = residual_and_mean(high)
-    good = ((at_low >= 0) & (at_high <= 0) & (mean_low < least_n) & (mean_high < least_n)
-            & np.isfinite(at_low) & np.isfinite(at_high))
+    with np.errstate(all="ignore"):
+        low, high = widen_brackets(residual, guess, np.zeros(span.size), np.full(span.size, np.inf))
+        # physical ends (mean tension below the least EA) and a sign change between them
+        good = ((mean_tension(span, 0.0, low, w2) < law2.least_stiffness_n)
+                & (mean_tension(span, 0.0, high, w2) < law2.least_stiffness_n)
+                & (residual(low) >= 0) & (residual(high) <= 0) & (low > 0))
     out = np.full(span.size, np.nan)
     if good.any():
-        out[good] = bracketed_roots(lambda h: residual_and_mean(h, good)[0], low[good], high[good], 1e-9, 1e-13,
+        out[good] = bracketed_roots(lambda h: residual(h, good), low[good], high[good], 1e-9, 1e-13,
                                     what="change of state")
     return out
 
