@@ -121,3 +121,19 @@ def test_knee_outside_the_search_is_nan_in_every_form():
     knee, solved = section_knee_points_c(spans, dz, 25e3, W_N_M, 15.0, W_N_M, law1, law2, search_c=narrow)
     assert solved.all() and np.isnan(knee).all()
     assert np.isfinite(section_knee_point_temperature_c(spans[0], dz[0], 25e3, W_N_M, 15.0, W_N_M, law1, law2))
+
+
+def test_knee_of_curves_as_one_root_equals_the_root_over_temperature():
+    from tests.physics.test_stress_strain import ALU_INITIAL, CORE_INITIAL, with_curves
+
+    law = with_curves(DRAKE, aluminium_initial=ALU_INITIAL, core_initial=CORE_INITIAL).law(0.0, 15.0)
+    assert not hasattr(law, "knee_temperature_c")  # the one-root form searches the temperature itself
+    spans, dz = np.array([280.0, 350.0, 310.0]), np.array([5.0, -12.0, 20.0])
+
+    def mean_at(t_c):
+        h_n = section_change_of_state_by_law(spans, dz, 28e3, W_N_M, 15.0, W_N_M, t_c, law, law)
+        return np.average(mean_tension(spans, dz, h_n, W_N_M), weights=spans)
+
+    reference = knee_point_temperature_c(mean_at, law)
+    one_root = section_knee_point_temperature_c(spans, dz, 28e3, W_N_M, 15.0, W_N_M, law, law)
+    assert np.isfinite(reference) and abs(one_root - reference) <= 2e-6
