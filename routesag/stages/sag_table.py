@@ -73,8 +73,8 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
     if not tables:
         return pd.DataFrame(columns=COLUMNS)
     solve_ruling_spans(tables)
-    columns = [task.columns() for task in tables]
-    return pd.DataFrame({name: np.concatenate([part[name] for part in columns]) for name in COLUMNS})
+    parts = [task.columns() for task in tables]
+    return pd.DataFrame({name: np.concatenate([part[name] for part in parts]) for name in COLUMNS})
 
 
 def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
