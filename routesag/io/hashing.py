@@ -8,6 +8,7 @@ since, so a run never records the hash of a file other than the one it read.
 
 import hashlib
 import os
+import threading
 from pathlib import Path
 
 from routesag.errors import DataError
@@ -66,6 +67,47 @@ def fingerprint(path) -> tuple[str, tuple]:
     return digest, before
 
 
+class BackgroundDigest:
+    """SHA-256 of an input (:func:`sha256_path`) taken in a thread while the run goes on.
+
+    hashlib and file reads release the GIL, so a raster of hundreds of MB is hashed on a spare core
+    while the line is solved, not before it. ``start=False`` waits for :meth:`start` (or the first
+    :meth:`result`); :meth:`result` waits for the digest (or re-raises its error).
+    """
+
+    def __init__(self, path, start=True):
+        self._digest, self._error = None, None
+        self._thread = threading.Thread(target=self._hash, args=(Path(path),), daemon=True,
+                                        name=f"sha256 {Path(path).name}")
+        self._started = threading.Lock()
+        if start:
+            self.start()
+
+    def start(self) -> None:
+        """Begin hashing (once)."""
+        if self._started.acquire(blocking=False):
+            self._thread.start()
+
+    def _hash(self, path):
+        try:
+            self._digest = sha256_path(path)
+        except BaseException as exc:  # handed to whoever asks for the digest
+            self._error = exc
+
+    def result(self) -> str:
+        self.start()
+        self._thread.join()
+        if self._error is not None:
+            raise self._error
+        return self._digest
+
+
+def fingerprint_in_background(path, start=True) -> tuple[BackgroundDigest, tuple]:
+    """As :func:`fingerprint`, the digest computed in a thread (:class:`BackgroundDigest`, ``start`` as there)."""
+    before = signature(path)
+    return BackgroundDigest(path, start), before
+
+
 def changed_since(path, recorded_signature) -> bool:
     """True when the input is gone, replaced or rewritten since its signature was recorded."""
     try:
@@ -88,6 +130,8 @@ def input_sha256(role, path, ctx=None) -> str:
     if record is None or Path(record[0]) != Path(path):
         return sha256_path(path)
     _, digest, recorded = record
+    if isinstance(digest, BackgroundDigest):
+        digest = digest.result()
     if changed_since(path, recorded):
         raise DataError(f"{role} file {path} changed while the run was reading it (replaced, rewritten or "
                         "removed); the results could mix two versions of it, so nothing was written: run again "

@@ -9,6 +9,7 @@ import contextlib
 import math
 import sys
 import threading
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
 from xml.etree import ElementTree
@@ -257,6 +258,59 @@ class TerrainSampler:
         if inside.any():
             out[inside] = self._interpolate(col_f[inside], row_f[inside])
         return out
+
+    def sample_scattered(self, x, y, crs=None, threads=1):
+        """As :meth:`sample`, for points that may lie far apart (the structures of a line); the same values.
+
+        Points too spread out for one window (see :attr:`sparse_min_cells`) are
+        read with no window held: each then reads only the cells it needs
+        (usually one raster block decoded) instead of a window grown by
+        :attr:`hold_margin_cells`, which may straddle four blocks. Points close
+        together are one window read, held as :meth:`sample` holds it. With
+        ``threads`` > 1 spread points are read by that many threads, each with
+        its own handle on the raster.
+        """
+        u, v = self.grid_coords(x, y, crs=crs)
+        finite = np.isfinite(u) & np.isfinite(v)
+        if not finite.any():
+            return self.sample(x, y, crs=crs)
+        cells = (np.ptp(v[finite]) + 2.0) * (np.ptp(u[finite]) + 2.0)
+        if cells <= max(self.sparse_min_cells, self.sparse_cells_per_point * int(finite.sum())):
+            return self.sample(x, y, crs=crs)
+        if threads > 1 and int(finite.sum()) >= 2 * threads:
+            return self._sample_in_threads(x, y, crs, threads)
+        held, self.hold_windows = self.hold_windows, 0
+        try:
+            return self.sample(x, y, crs=crs)
+        finally:
+            self.hold_windows = held
+
+    def _sample_in_threads(self, x, y, crs, threads):
+        """:meth:`sample_scattered` split over ``threads``: the first part here, each other part by a sampler of
+        its own opened in its own thread (a GDAL handle serves one thread at a time; decoding a block releases
+        the GIL). What those samplers met (implausible values, window reads) is added to this one's."""
+        xr, yr = (a.ravel() for a in self._to_raster_xy(x, y, crs))
+        parts = np.array_split(np.arange(xr.size), threads)
+        out = np.empty(xr.size)
+        others = [None] * (threads - 1)
+
+        def in_own_sampler(k, rows):
+            with TerrainSampler(self._path, z_units=self._z_units, crs=self._assigned_crs,
+                                nodata=self._declared_nodata) as sampler:
+                out[rows] = sampler.sample_scattered(xr[rows], yr[rows])
+                others[k] = (dict(sampler.implausible_values), sampler.sample_window_count)
+
+        with ThreadPoolExecutor(threads - 1, thread_name_prefix="terrain") as pool:
+            pending = [pool.submit(in_own_sampler, k, rows) for k, rows in enumerate(parts[1:])]
+            out[parts[0]] = self.sample_scattered(xr[parts[0]], yr[parts[0]])
+            for done in pending:
+                done.result()
+        for values, reads in others:
+            self.sample_window_count += reads
+            for value, count in values.items():
+                if value in self.implausible_values or len(self.implausible_values) < _SUSPECT_VALUES_KEPT:
+                    self.implausible_values[value] = self.implausible_values.get(value, 0) + count
+        return out.reshape(np.broadcast(np.asarray(x), np.asarray(y)).shape)
 
     def grid_coords(self, x, y, crs=None):
         """Continuous grid coordinates ``(u, v)`` of points: integer values are columns / rows of cell centres.

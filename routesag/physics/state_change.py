@@ -30,11 +30,11 @@ from scipy.optimize import brentq, minimize_scalar
 from routesag.errors import SolveError
 
 from .catenary import length_and_mean_tension, mean_tension
-from .roots import remembered, tension_root
+from .roots import bracketed_roots, remembered, tension_root, widen_bracket, widen_brackets
 from .two_material import LinearLaw
 
-__all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "parabolic_change_of_state",
-           "physical_tension_range"]
+__all__ = ["ruling_span", "change_of_state", "change_of_state_by_law", "changes_of_state_by_law",
+           "parabolic_change_of_state", "physical_tension_range"]
 
 #: Largest half-span angle S/2c tried by the exact solver; cosh overflows near 710.
 _MAX_HALF_SPAN_ANGLE = 300.0
@@ -170,11 +170,74 @@ def change_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weig
     low_limit, high_limit = physical_tension_range(span_m, weight2_n_m, float(law2.least_stiffness_n), describe)
     guess = parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m,
                                       temperature2_c, axial_stiffness_n, 1.0, law2.expansion_per_c)
-    low, high = _bracket(residual, float(np.clip(guess, low_limit, high_limit)), low_limit, high_limit)
+    low, high = widen_bracket(residual, float(np.clip(guess, low_limit, high_limit)), low_limit, high_limit)
     if low is None:
         raise SolveError(f"change of state has no solution with a horizontal tension between "
                          f"{low_limit:.4g} N and {high_limit:.4g} N ({describe})")
     return tension_root(residual, low, high, "change of state")
+
+
+def changes_of_state_by_law(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,
+                            law1, law2):
+    """:func:`change_of_state_by_law` for many level spans and state pairs at once, vectorised [N].
+
+    Every argument but the two laws broadcasts against the others; the
+    result has the broadcast shape. Each element is solved to the scalar
+    solver's tolerance (1e-9 N plus 1e-13 relative, :func:`.roots.bracketed_roots`)
+    on a bracket around the parabolic estimate whose both ends are physical
+    (mean tension below the law's least EA: inside :func:`physical_tension_range`,
+    where the residual falls with ``H`` and has one root), so both find the same
+    root within that tolerance. An element without such a bracket (out of
+    range inputs, a root far from the estimate) is solved by the scalar solver
+    instead, which also raises its errors.
+
+    Raises
+    ------
+    routesag.errors.SolveError
+        As :func:`change_of_state_by_law`, for the first failing element.
+    """
+    args = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in
+                                 (span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c)))
+    shape = args[0].shape
+    span, h1, w1, t1, w2, t2 = (a.ravel() for a in args)
+    out = np.full(span.size, np.nan)
+    with np.errstate(all="ignore"):
+        ok = (np.isfinite(span) & np.isfinite(h1) & np.isfinite(w1) & np.isfinite(w2) & np.isfinite(t1)
+              & np.isfinite(t2) & (span > 0) & (h1 > 0) & (w1 > 0) & (w2 > 0) & (float(law2.axial_stiffness_n) > 0)
+              & (law1.stretch_ratio(0.0, t1) > 0) & (law2.stretch_ratio(0.0, t2) > 0)
+              & (mean_tension(span, 0.0, h1, w1) < law1.least_stiffness_n))
+    if ok.any():
+        out[ok] = _vector_changes(span[ok], h1[ok], w1[ok], t1[ok], w2[ok], t2[ok], law1, law2)
+    for i in np.flatnonzero(np.isnan(out)):  # the scalar solver: its answer, or its error
+        out[i] = change_of_state_by_law(span[i], h1[i], w1[i], t1[i], w2[i], t2[i], law1, law2)
+    return out.reshape(shape)
+
+
+def _vector_changes(span, h1, w1, t1, w2, t2, law1, law2):
+    """Roots where a physical bracket around the parabolic estimate is found; NaN elsewhere."""
+    target_m = _unstressed_length_array(span, h1, w1, t1, law1)
+
+    def residual(tension_n, keep=slice(None)):
+        return _unstressed_length_array(span[keep], tension_n, w2[keep], t2[keep], law2) - target_m[keep]
+
+    guess = parabolic_change_of_state(span, h1, w1, t1, w2, t2, float(law2.axial_stiffness_n), 1.0,
+                                      law2.expansion_per_c)
+    with np.errstate(all="ignore"):
+        low, high = widen_brackets(residual, guess, np.zeros(span.size), np.full(span.size, np.inf))
+        # physical ends (mean tension below the least EA) and a sign change between them
+        good = ((mean_tension(span, 0.0, low, w2) < law2.least_stiffness_n)
+                & (mean_tension(span, 0.0, high, w2) < law2.least_stiffness_n)
+                & (residual(low) >= 0) & (residual(high) <= 0) & (low > 0))
+    out = np.full(span.size, np.nan)
+    if good.any():
+        out[good] = bracketed_roots(lambda h: residual(h, good), low[good], high[good], 1e-9, 1e-13,
+                                    what="change of state")
+    return out
+
+
+def _unstressed_length_array(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):
+    stretched, tension = length_and_mean_tension(span_m, 0.0, horizontal_tension_n, weight_n_m)
+    return stretched / law.stretch_ratio(tension, temperature_c)
 
 
 def _unstressed_length(span_m, horizontal_tension_n, weight_n_m, temperature_c, law):
@@ -231,20 +294,6 @@ def _physical_tension_range(span_m, weight_n_m, axial_stiffness_n):
     low = slackest if excess(slackest) < 0 else brentq(excess, slackest, best, xtol=1e-14)
     high = brentq(excess, best, tightest, xtol=1e-14)
     return float(np.exp(low)), float(np.exp(high))
-
-
-def _bracket(residual, guess, low_limit, high_limit):
-    """Widen ``[guess/2, 2 guess]`` by factors of 4 inside the limits until the decreasing
-    ``residual`` changes sign; return ``(low, high)`` or ``(None, None)``."""
-    low = min(max(guess / 2.0, low_limit), high_limit)
-    high = max(min(guess * 2.0, high_limit), low_limit)
-    while residual(low) < 0 and low > low_limit:
-        low, high = max(low / 4.0, low_limit), low
-    while residual(high) > 0 and high < high_limit:
-        low, high = high, min(high * 4.0, high_limit)
-    if residual(low) >= 0 >= residual(high):
-        return low, high
-    return None, None
 
 
 def parabolic_change_of_state(span_m, tension1_n, weight1_n_m, temperature1_c, weight2_n_m, temperature2_c,

@@ -168,6 +168,20 @@ class TwoMaterialLaw:
         knee_x = alu_g * (1.0 - c.aluminium_compression_pa / c.aluminium_modulus_pa)
         return c.core_stiffness_n * (knee_x / core_g - 1.0) - c.aluminium_compression_pa * c.aluminium_area_m2
 
+    def knee_temperature_c(self, tension_n):
+        """Temperature at which the knee tension is ``tension_n`` [degC]: the inverse of :meth:`knee_tension_n`.
+
+        ``q = (T + sigma_c A_a) / E_s A_s + 1 = k (1 + eps) g_a' / g_s`` with ``k = 1 - sigma_c / E_a`` is linear
+        in ``dt`` after multiplying out, so ``dt = (K - q) / (q alpha_s - K alpha_a)`` with ``K = k (1 + eps)``.
+        """
+        c = self.conductor
+        q = (np.asarray(tension_n, dtype=float) + c.aluminium_compression_pa * c.aluminium_area_m2) / \
+            c.core_stiffness_n + 1.0
+        k = (1.0 - c.aluminium_compression_pa / c.aluminium_modulus_pa) * (1.0 + self.creep_strain)
+        with np.errstate(divide="ignore"):
+            return self.reference_temperature_c + (k - q) / (q * c.core_expansion_per_c
+                                                             - k * c.aluminium_expansion_per_c)
+
     def stretch_ratio(self, tension_n, temperature_c):
         """Stretched over unstressed (core, reference temperature) length ``x(T, t)`` [-]."""
         c = self.conductor

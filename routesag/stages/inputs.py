@@ -1,11 +1,13 @@
 """Stage: read and check the structures and open the terrain."""
 from __future__ import annotations
 
+import os
+
 import numpy as np
 
 from routesag.errors import DataError
 from routesag.io.extents import extent_message
-from routesag.io.hashing import fingerprint
+from routesag.io.hashing import fingerprint_in_background
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
@@ -15,6 +17,9 @@ from routesag.stages.terrain import warn_implausible
 #: Terrain windows held by the sampler: more than a section's spans, so the terrain stage finds every span's
 #: cells still in memory after the conductors were placed on them (one read per span; at most ~2 MB each).
 HELD_TERRAIN_WINDOWS = 16
+#: Threads reading the ground under structures: each decodes whole raster blocks, one per structure of a long
+#: line, and GDAL lets go of the GIL meanwhile.
+GROUND_READ_THREADS = min(2, os.cpu_count() or 1)
 
 
 class ReadInputs(Stage):
@@ -26,8 +31,13 @@ class ReadInputs(Stage):
     def run(self, data, ctx):
         project = data["project"]
         source = project.structures_path
-        record_inputs(project, ctx)
-        structures, terrain = read_and_check(project, ctx)
+        digests = record_inputs(project, ctx)
+        try:
+            structures, terrain = read_and_check(project, ctx)
+        finally:
+            for role, digest in digests.items():  # the small inputs now; the terrain after the ground is read
+                if role != "terrain":
+                    digest.start()
         try:
             original = structures.copy()
             structures, crs, note = to_working_crs(structures, source)
@@ -39,6 +49,9 @@ class ReadInputs(Stage):
         except BaseException:
             terrain.close()
             raise
+        finally:
+            if "terrain" in digests:
+                digests["terrain"].start()
         ctx.notes["crs"] = crs.to_string()
         ctx.notes["crs_note"] = note
         ctx.notes["terrain_crs"] = terrain.crs.to_string()
@@ -49,10 +62,25 @@ class ReadInputs(Stage):
 
 
 def record_inputs(project, ctx) -> None:
-    """Hash every input as the run starts reading them; run_info reports these, not a later file's."""
+    """Take every input's signature as the run starts reading them; run_info reports their hashes.
+
+    The hashes are taken in background threads, started by the caller (:class:`BackgroundDigest`): the
+    terrain's is hundreds of MB, so it starts once the ground under the structures is read and runs on a
+    spare core while the line is solved. The output stage waits for them and refuses the run if a
+    signature changed meanwhile, so a hash is always of the file the run read.
+
+    Returns
+    -------
+    dict
+        Input role -> its :class:`BackgroundDigest`, not yet started.
+    """
+    digests = {}
     for role, path in project.input_paths().items():
         if path.exists():
-            ctx.inputs[role] = (path, *fingerprint(path))
+            digest, before = fingerprint_in_background(path, start=False)
+            ctx.inputs[role] = (path, digest, before)
+            digests[role] = digest
+    return digests
 
 
 def read_and_check(project, ctx=None):
@@ -105,7 +133,8 @@ def locate_attachments(structures, terrain, source, original=None):
     need = np.isnan(s["ground_z_m"].to_numpy(dtype=float))
     ground = s["ground_z_m"].to_numpy(dtype=float).copy()
     if need.any():
-        ground[need] = terrain.sample(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs)
+        ground[need] = terrain.sample_scattered(s["x"].to_numpy()[need], s["y"].to_numpy()[need], crs=s.crs,
+                                                threads=GROUND_READ_THREADS)
     missing = np.isnan(ground)
     if missing.any():
         own = s if original is None else original
@@ -141,8 +170,9 @@ def check_surveyed_ground(structures, terrain, source, inputs, warn) -> None:
         return
     tolerance_m = float(inputs.get("ground_z_tolerance_m", 5.0))
     given = structures["ground_z_m"].to_numpy(dtype=float)[surveyed]
-    terrain_z = terrain.sample(structures["x"].to_numpy()[surveyed], structures["y"].to_numpy()[surveyed],
-                               crs=structures.crs)
+    terrain_z = terrain.sample_scattered(structures["x"].to_numpy()[surveyed],
+                                         structures["y"].to_numpy()[surveyed], crs=structures.crs,
+                                         threads=GROUND_READ_THREADS)
     with np.errstate(invalid="ignore"):
         far = np.abs(given - terrain_z) > tolerance_m
     ids = structures.loc[surveyed, "structure_id"].to_numpy()

@@ -16,13 +16,16 @@ References
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+from typing import NamedTuple
+
 import numpy as np
 import pandas as pd
 
 from routesag.errors import ProjectError
 from routesag.physics.catenary import midspan_sag, support_tensions
 from routesag.physics.loads import bare_weight_n_m
-from routesag.physics.state_change import change_of_state_by_law
+from routesag.physics.state_change import changes_of_state_by_law
 from routesag.pipeline import Stage
 
 #: Conductor temperatures of the table [degC].
@@ -49,23 +52,29 @@ def sag_table(project, sections, wire_spans, tensions, temperatures_c=TEMPERATUR
     The stringing tension of each section and wire is read from ``tensions``
     (``stringing_tension_n``), so a design tension found from the limits is used.
     ``conditions``: ``initial`` (as strung) and/or ``final`` (after creep: the
-    initial state at the temperature plus the wire's creep allowance).
+    initial state at the temperature plus the wire's creep allowance). The
+    changes of state of every section, wire and temperature are solved
+    together, one vectorised solve per pair of stretch laws.
     """
     first = tensions.drop_duplicates(["section_id", "wire"]).set_index(["section_id", "wire"])
     stringing_n = first["stringing_tension_n"]
     # the temperature of the state the tensions start from (the survey's when re-rated from the as-found state)
     stringing_c = first["stringing_temperature_c"] if "stringing_temperature_c" in first else None
-    by_wire = dict(tuple(wire_spans.groupby(["section_id", "wire"], sort=False)))
-    frames = []
-    for _, section in sections.iterrows():
-        for wire in project.line_wires(section["line_id"]):
-            key = (section["section_id"], wire.name)
+    positions = wire_spans.groupby(["section_id", "wire"], sort=False).indices
+    columns = {name: wire_spans[name].to_numpy() for name in SpanColumns._fields}
+    tables = []
+    for section_id, line_id in zip(sections["section_id"], sections["line_id"]):
+        for wire in project.line_wires(line_id):
+            key = (section_id, wire.name)
             start_c = None if stringing_c is None else float(stringing_c[key])
-            frames.extend(section_sag_table(section, by_wire[key], float(stringing_n[key]), wire, temperatures_c,
-                                            condition, start_c) for condition in conditions)
-    if not frames:
+            spans = SpanColumns(*(values[positions[key]] for values in columns.values()))
+            tables.extend(SagTableTask.of(section_id, spans, float(stringing_n[key]), wire, temperatures_c,
+                                          condition, start_c) for condition in conditions)
+    if not tables:
         return pd.DataFrame(columns=COLUMNS)
-    return pd.concat(frames, ignore_index=True)[COLUMNS]
+    solve_ruling_spans(tables)
+    parts = [task.columns() for task in tables]
+    return pd.DataFrame({name: np.concatenate([part[name] for part in parts]) for name in COLUMNS})
 
 
 def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
@@ -79,38 +88,112 @@ def section_sag_table(section, spans, stringing_tension_n, wire, temperatures_c,
     ProjectError
         ``final`` for a wire without a creep allowance.
     """
-    c, stringing = wire.conductor, wire.stringing
-    start_c = stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
-    w_n_m = float(bare_weight_n_m(c.mass_kg_m))
-    ruling_m = float(spans["ruling_span_m"].iloc[0])  # the wire's own spans
-    temps = np.asarray(temperatures_c, dtype=float)
-    law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
-    try:
-        states_c, final_law = condition_states(c, stringing, temps, condition, start_c, law)
-    except ValueError as exc:
-        raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
-                           "creep_allowance_c in its [stringing] table") from None
-    h_n = np.array([change_of_state_by_law(ruling_m, stringing_tension_n, w_n_m, start_c, w_n_m, t, law, final_law)
-                    for t in states_c])
-    ruling = {"kind": "ruling", "span_id": None, "from_id": None, "to_id": None}
-    span_rows = [{"kind": "span", "span_id": s.span_id, "from_id": s.from_id, "to_id": s.to_id}
-                 for s in spans.itertuples()]
-    span_m = np.concatenate([[ruling_m], spans["span_m"].to_numpy(dtype=float)])[:, None]
-    dz_m = np.concatenate([[0.0], spans["dz_m"].to_numpy(dtype=float)])[:, None]
-    catenary_m = h_n[None, :] / w_n_m
-    at_a, at_b = support_tensions(span_m, dz_m, h_n[None, :], w_n_m)
-    shape = (len(span_m), len(temps))
-    frame = pd.DataFrame({
-        "section_id": section["section_id"], "wire": wire.name,
-        "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
-        "temperature_c": np.broadcast_to(temps, shape).ravel(), "condition": condition,
-        "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
-        "max_tension_n": np.maximum(at_a, at_b).ravel(),
-        "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
-        "catenary_m": np.broadcast_to(catenary_m, shape).ravel(),
-    })
-    labels = pd.DataFrame([ruling] + span_rows).loc[np.repeat(np.arange(shape[0]), shape[1])]
-    return pd.concat([frame, labels.reset_index(drop=True)], axis=1)
+    columns = SpanColumns(*(spans[name].to_numpy() for name in SpanColumns._fields))
+    task = SagTableTask.of(section["section_id"], columns, stringing_tension_n, wire, temperatures_c, condition,
+                           stringing_temperature_c)
+    solve_ruling_spans([task])
+    return pd.DataFrame(task.columns())[COLUMNS]
+
+
+class SpanColumns(NamedTuple):
+    """The columns of one wire's spans in a section that the sag table uses, as numpy arrays."""
+
+    span_id: np.ndarray
+    from_id: np.ndarray
+    to_id: np.ndarray
+    span_m: np.ndarray
+    dz_m: np.ndarray
+    ruling_span_m: np.ndarray
+
+
+@dataclass
+class SagTableTask:
+    """One wire's sag table in one tension section and condition: its ruling span's states, then its rows."""
+
+    section_id: object
+    spans: SpanColumns
+    wire: object
+    condition: str
+    temps_c: np.ndarray             # table temperatures [degC]
+    states_c: np.ndarray            # temperatures the stringing state is carried to [degC]
+    start_c: float                  # temperature of the stringing state [degC]
+    stringing_tension_n: float
+    weight_n_m: float               # bare wire [N/m]
+    ruling_m: float
+    laws: tuple                     # stretch laws of the stringing state and of the condition
+    horizontal_tension_n: np.ndarray | None = None
+
+    @classmethod
+    def of(cls, section_id, spans: SpanColumns, stringing_tension_n, wire, temperatures_c, condition="initial",
+           stringing_temperature_c=None) -> "SagTableTask":
+        """The task, its laws and state temperatures set.
+
+        Raises
+        ------
+        ProjectError
+            ``final`` for a wire without a creep allowance.
+        """
+        c, stringing = wire.conductor, wire.stringing
+        start_c = stringing.temperature_c if stringing_temperature_c is None else stringing_temperature_c
+        temps = np.asarray(temperatures_c, dtype=float)
+        law = c.law(start_c)  # initial condition: linear composite or the two members uncrept
+        try:
+            states_c, final_law = condition_states(c, stringing, temps, condition, start_c, law)
+        except ValueError as exc:
+            raise ProjectError(f"sag table of wire {wire.name!r}, {condition} condition: {exc}; set "
+                               "creep_allowance_c in its [stringing] table") from None
+        return cls(section_id, spans, wire, condition, temps, np.asarray(states_c, dtype=float), start_c,
+                   stringing_tension_n, float(bare_weight_n_m(c.mass_kg_m)),
+                   float(spans.ruling_span_m[0]), (law, final_law))  # the wire's own spans
+
+    def columns(self) -> dict:
+        """The rows as numpy columns (:data:`COLUMNS`), ruling span first."""
+        spans, h_n, w_n_m = self.spans, self.horizontal_tension_n, self.weight_n_m
+        span_m = np.concatenate([[self.ruling_m], spans.span_m.astype(float)])[:, None]
+        dz_m = np.concatenate([[0.0], spans.dz_m.astype(float)])[:, None]
+        catenary_m = h_n[None, :] / w_n_m
+        at_a, at_b = support_tensions(span_m, dz_m, h_n[None, :], w_n_m)
+        shape = (len(span_m), len(self.temps_c))
+        size = shape[0] * shape[1]
+
+        def labels(values):
+            return np.repeat(np.concatenate([[None], values.astype(object)]), shape[1])
+
+        return {
+            "section_id": np.full(size, self.section_id, dtype=object),
+            "wire": np.full(size, self.wire.name, dtype=object),
+            "kind": np.repeat(np.array(["ruling"] + ["span"] * (shape[0] - 1), dtype=object), shape[1]),
+            "span_id": labels(spans.span_id), "from_id": labels(spans.from_id), "to_id": labels(spans.to_id),
+            "span_m": np.broadcast_to(span_m, shape).ravel(), "dz_m": np.broadcast_to(dz_m, shape).ravel(),
+            "temperature_c": np.broadcast_to(self.temps_c, shape).ravel(),
+            "condition": np.full(size, self.condition, dtype=object),
+            "horizontal_tension_n": np.broadcast_to(h_n, shape).ravel(),
+            "max_tension_n": np.maximum(at_a, at_b).ravel(),
+            "sag_m": midspan_sag(span_m, dz_m, catenary_m).ravel(),
+            "catenary_m": np.broadcast_to(catenary_m, shape).ravel(),
+        }
+
+
+def solve_ruling_spans(tasks) -> None:
+    """Set every task's ruling-span tensions: one :func:`changes_of_state_by_law` per pair of equal laws."""
+    groups = {}
+    for task in tasks:
+        try:
+            groups.setdefault(task.laws, []).append(task)
+        except TypeError:  # laws that cannot be compared by value: solved on their own
+            groups[id(task)] = [task]
+    for group in groups.values():
+        law, final_law = group[0].laws
+        sizes = [len(task.states_c) for task in group]
+
+        def each(name):
+            return np.concatenate([np.full(n, getattr(task, name)) for task, n in zip(group, sizes)])
+
+        h_n = changes_of_state_by_law(each("ruling_m"), each("stringing_tension_n"), each("weight_n_m"),
+                                      each("start_c"), each("weight_n_m"),
+                                      np.concatenate([task.states_c for task in group]), law, final_law)
+        for task, part in zip(group, np.split(h_n, np.cumsum(sizes)[:-1])):
+            task.horizontal_tension_n = part
 
 
 def condition_states(conductor, stringing, temps_c, condition, start_c, initial_law):

@@ -19,8 +19,11 @@ from routesag.errors import ProjectError, SolveError
 from routesag.physics.catenary import mean_tension, support_tensions
 from routesag.physics.conductor3d import swung_span
 from routesag.physics.loads import LoadPerLength, bare_weight_n_m, conductor_load
-from routesag.physics.section_solver import section_change_of_state_by_law
-from routesag.physics.state_change import change_of_state_by_law
+from routesag.physics.section_solver import (
+    section_change_of_state_by_law, section_changes_of_state_by_law, section_knee_point_temperature_c,
+    section_knee_points_c,
+)
+from routesag.physics.state_change import change_of_state_by_law, changes_of_state_by_law
 from routesag.physics.two_material import creep_strain_for_final_tension, knee_point_temperature_c
 from routesag.pipeline import Stage
 from routesag.stages.as_found import as_found_columns, reference_stringing
@@ -45,13 +48,13 @@ class SolveTensions(Stage):
             if not wire.stringing.from_limits:
                 # a bad stringing tension is one problem, not one per section
                 stringing_tension_n(project, wire.conductor, wire.stringing)
-        rows, problems = [], []
         ctx.notes["stringing_method"] = {w.name: w.stringing.method for _, s in data["sections"].iterrows()
                                          for w in project.line_wires(s["line_id"])}
         ctx.notes["conductor_model"] = {w.name: w.conductor.model for _, s in data["sections"].iterrows()
                                         for w in project.line_wires(s["line_id"])}
         ctx.notes["ruling_span_m"] = {str(s["section_id"]): round(float(s["ruling_span_m"]), 3)
                                       for _, s in data["sections"].iterrows()}
+        planned = []  # (plan or its error, wire name, stringing, tension source, as-found state), in row order
         for _, section in data["sections"].iterrows():
             for wire in project.line_wires(section["line_id"]):
                 spans = by_wire[(section["section_id"], wire.name)]
@@ -64,11 +67,20 @@ class SolveTensions(Stage):
                     ctx.warn(f"tension section {section['section_id']}, wire {wire.name}: no good wire fit; "
                              "load cases start from the design stringing")
                 try:
-                    rows += [dict(row, wire=wire.name, stringing_temperature_c=stringing.temperature_c,
-                                  **as_found_columns(source, state))
-                             for row in section_tensions(own, project, wire.conductor, stringing, spans)]
-                except SolveError as exc:  # report every section, wire and case that fails, together
-                    problems.extend(exc.problems)
+                    plan = SectionPlan.make(own, project, wire.conductor, stringing, spans)
+                except SolveError as exc:
+                    plan = exc
+                planned.append((plan, wire.name, stringing, source, state))
+        solve_plans([entry[0] for entry in planned if isinstance(entry[0], SectionPlan)])
+        rows, problems = [], []
+        for plan, name, stringing, source, state in planned:
+            try:
+                if isinstance(plan, SolveError):
+                    raise plan
+                rows += [dict(row, wire=name, stringing_temperature_c=stringing.temperature_c,
+                              **as_found_columns(source, state)) for row in plan.rows()]
+            except SolveError as exc:  # report every section, wire and case that fails, together
+                problems.extend(exc.problems)
         if problems:
             raise SolveError(problems)
         return {"tensions": pd.DataFrame(rows)}
@@ -116,42 +128,91 @@ def section_tensions(section, project, conductor=None, stringing=None, spans=Non
         The section's spans (span_m, dz_m) for support tensions; without them
         the ruling span, level, stands in.
     """
-    conductor = conductor or project.conductor
-    stringing = stringing or project.stringing
-    ruling_m = float(section["ruling_span_m"])
-    spans_m, dz_m = _span_geometry(ruling_m, spans)
-    where = f"tension section {section['section_id']}"
-    cases = project.load_cases
-    carry = StateCarrier(stringing.method, ruling_m, spans_m, dz_m, float(bare_weight_n_m(conductor.mass_kg_m)),
-                         stringing.temperature_c)
+    plan = SectionPlan.make(section, project, conductor, stringing, spans)
+    solve_plans([plan])
+    return plan.rows()
 
-    def solve(h0_n, names=None):
-        states, problems = {}, []
-        laws = condition_laws(where, carry, h0_n, conductor, stringing)
-        for case in cases:
-            if names is not None and case.name not in names:
-                continue
-            try:
-                states[case.name] = solve_case(where, case, h0_n, carry, conductor, stringing,
-                                               project.ice_density_kg_m3, laws)
-            except SolveError as exc:  # every failing case of the section, together
-                problems.extend(exc.problems)
-        if problems:
-            raise SolveError(problems)
-        return states
 
-    design = None
-    if stringing.from_limits:
-        lowest_n = DESIGN_LOWEST_CATENARY_PER_SPAN * ruling_m * float(bare_weight_n_m(conductor.mass_kg_m))
-        design = design_stringing_tension(solve, project.limits, conductor.rated_strength_n, lowest_n,
-                                          conductor.rated_strength_n, where)
-        h0_n = design.tension_n
-    else:
-        h0_n = stringing_tension_n(project, conductor, stringing)
-    knees = knee_points(carry, h0_n, condition_laws(where, carry, h0_n, conductor, stringing))
-    return [dict(_row(section, case, state, h0_n, conductor, design), stringing_method=stringing.method,
-                 conductor_model=conductor.model, **knees)
-            for case, state in zip(cases, solve(h0_n).values())]
+class SectionPlan:
+    """One wire's tension section made ready to solve: stringing tension, stretch laws and load cases.
+
+    :func:`solve_plans` solves the changes of state and knee points of many plans together (one
+    vectorised solve per kind of problem); :meth:`rows` then gives the section's rows, or raises the
+    problems of its failing load cases together.
+    """
+
+    def __init__(self, section, project, conductor, stringing, carry, h0_n, design, laws, cases):
+        self.section, self.project, self.conductor, self.stringing = section, project, conductor, stringing
+        self.carry, self.h0_n, self.design, self.laws, self.cases = carry, h0_n, design, laws, cases
+        self.where = f"tension section {section['section_id']}"
+        self.knees: dict | SolveError | None = None
+        self.states: list | None = None  # tension [N] or SolveError of each case's change of state
+
+    @classmethod
+    def make(cls, section, project, conductor=None, stringing=None, spans=None) -> "SectionPlan":
+        """The plan; the design stringing tension searched now when ``from_limits``.
+
+        Raises
+        ------
+        SolveError
+            No stringing tension meets the limits, or the final condition's creep cannot be found.
+        ProjectError
+            A stringing tension not below the rated strength.
+        """
+        conductor = conductor or project.conductor
+        stringing = stringing or project.stringing
+        ruling_m = float(section["ruling_span_m"])
+        spans_m, dz_m = _span_geometry(ruling_m, spans)
+        where = f"tension section {section['section_id']}"
+        carry = StateCarrier(stringing.method, ruling_m, spans_m, dz_m,
+                             float(bare_weight_n_m(conductor.mass_kg_m)), stringing.temperature_c)
+
+        def prepare(h0_n, names=None):
+            laws = condition_laws(where, carry, h0_n, conductor, stringing)
+            return laws, [prepare_case(where, case, h0_n, carry, conductor, stringing, project.ice_density_kg_m3,
+                                       laws)
+                          for case in project.load_cases if names is None or case.name in names]
+
+        def solve(h0_n, names=None):  # the design search: one tension tried at a time
+            _, cases = prepare(h0_n, names)
+            return finish_cases(where, cases, carry_states([c.request for c in cases if isinstance(c, CasePlan)]))
+
+        design = None
+        if stringing.from_limits:
+            lowest_n = DESIGN_LOWEST_CATENARY_PER_SPAN * ruling_m * float(bare_weight_n_m(conductor.mass_kg_m))
+            design = design_stringing_tension(solve, project.limits, conductor.rated_strength_n, lowest_n,
+                                              conductor.rated_strength_n, where)
+            h0_n = design.tension_n
+        else:
+            h0_n = stringing_tension_n(project, conductor, stringing)
+        laws, cases = prepare(h0_n)
+        return cls(section, project, conductor, stringing, carry, h0_n, design, laws, cases)
+
+    def rows(self) -> list[dict]:
+        """The rows of every load case (after :func:`solve_plans`).
+
+        Raises
+        ------
+        SolveError
+            A knee point that cannot be found, or every failing load case together.
+        """
+        if isinstance(self.knees, SolveError):
+            raise self.knees
+        states = finish_cases(self.where, self.cases, self.states)
+        return [dict(_row(self.section, case, state, self.h0_n, self.conductor, self.design),
+                     stringing_method=self.stringing.method, conductor_model=self.conductor.model, **self.knees)
+                for case, state in zip(self.project.load_cases, states.values())]
+
+
+def solve_plans(plans) -> None:
+    """Solve the load cases and knee points of every plan, together."""
+    requests = [c.request for plan in plans for c in plan.cases if isinstance(c, CasePlan)]
+    results = iter(carry_states(requests))
+    for plan in plans:
+        plan.states = [next(results) for c in plan.cases if isinstance(c, CasePlan)]
+    knees = iter(knee_points_of([(plan.carry, plan.h0_n, plan.laws) for plan in plans]))
+    for plan in plans:
+        plan.knees = next(knees)
 
 
 def _span_geometry(ruling_m, spans):
@@ -217,16 +278,93 @@ def condition_laws(where, carry: StateCarrier, h0_n, conductor, stringing) -> di
 
 def knee_points(carry: StateCarrier, h0_n, laws) -> dict:
     """Knee-point temperature of each condition [degC], bare wire (NaN for a linear conductor or outside the search)."""
-    knees = {f"knee_point_{condition}_c": math.nan for condition in ("initial", "final")}
-    for condition, law in laws.items():
-        knees[f"knee_point_{condition}_c"] = knee_point_temperature_c(
-            lambda t: carry.bare_mean_tension_n(h0_n, t, laws["initial"], law), law)
+    return knee_points_of([(carry, h0_n, laws)])[0]
+
+
+def knee_points_of(sections) -> list:
+    """:func:`knee_points` of many ``(carry, h0_n, laws)`` at once: a dict each, or the SolveError that stopped it.
+
+    Sections of equally many spans and equal laws share one vectorised solve
+    (:func:`~routesag.physics.section_solver.section_knee_points_c`); the rest, and any row it
+    cannot bracket, take :func:`_knee_point_c`.
+    """
+    knees = [{f"knee_point_{condition}_c": math.nan for condition in ("initial", "final")} for _ in sections]
+    groups = {}
+    for i, (carry, h0_n, laws) in enumerate(sections):
+        for condition, law in laws.items():
+            spans_m, dz_m = _knee_spans(carry)
+            key = (len(spans_m), laws["initial"], law)
+            try:
+                groups.setdefault(key if hasattr(law, "knee_temperature_c") else (i, condition), []).append(
+                    (i, condition))
+            except TypeError:  # laws that cannot be compared by value: on their own
+                groups[(i, condition)] = [(i, condition)]
+    for members in groups.values():
+        carries = [sections[i][0] for i, _ in members]
+        initial = sections[members[0][0]][2]["initial"]
+        law = sections[members[0][0]][2][members[0][1]]
+        found, solved = np.full(len(members), np.nan), np.zeros(len(members), dtype=bool)
+        if hasattr(law, "knee_temperature_c"):
+            geometry = [_knee_spans(carry) for carry in carries]
+            found, solved = section_knee_points_c(
+                np.array([g[0] for g in geometry]), np.array([g[1] for g in geometry]),
+                [sections[i][1] for i, _ in members], [carry.bare_n_m for carry in carries],
+                [carry.stringing_c for carry in carries], [carry.bare_n_m for carry in carries], initial, law)
+        for (i, condition), knee_c, ok in zip(members, found, solved):
+            if isinstance(knees[i], SolveError):
+                continue
+            carry, h0_n, laws = sections[i]
+            try:
+                knees[i][f"knee_point_{condition}_c"] = float(knee_c) if ok else _knee_point_c(
+                    carry, h0_n, laws["initial"], laws[condition])
+            except SolveError as exc:
+                knees[i] = exc
     return knees
 
 
-def solve_case(where, case, h0_n, carry: StateCarrier, conductor, stringing, ice_density_kg_m3,
-               laws=None) -> CaseState:
-    """Carry the stringing state (``h0_n`` at the stringing temperature, bare) to one load case.
+def _knee_spans(carry: StateCarrier):
+    """Spans the knee is found on: the section's, or its ruling span, level."""
+    if carry.method == "section":
+        return carry.spans_m, carry.dz_m
+    return np.array([carry.ruling_m]), np.array([0.0])
+
+
+def _knee_point_c(carry: StateCarrier, h0_n, initial_law, law) -> float:
+    """One root over the tension; where that form finds no sign change, the root over temperature of
+    whole changes of state (slower, same knee)."""
+    spans_m, dz_m = _knee_spans(carry)
+    try:
+        return section_knee_point_temperature_c(spans_m, dz_m, h0_n, carry.bare_n_m, carry.stringing_c,
+                                                carry.bare_n_m, initial_law, law)
+    except SolveError:
+        return knee_point_temperature_c(lambda t: carry.bare_mean_tension_n(h0_n, t, initial_law, law), law)
+
+
+@dataclass(frozen=True)
+class StateRequest:
+    """One change of state asked of a carrier: from its stringing state (``h0_n``) to a load and temperature."""
+
+    carry: StateCarrier
+    h0_n: float
+    weight_n_m: float
+    temperature_c: float
+    law1: object
+    law2: object
+    blowout_rad: float
+
+
+@dataclass(frozen=True)
+class CasePlan:
+    """One load case of a section made ready: its load, conductor temperature and change of state."""
+
+    case: object
+    load: LoadPerLength
+    temperature_c: float
+    request: StateRequest
+
+
+def prepare_case(where, case, h0_n, carry: StateCarrier, conductor, stringing, ice_density_kg_m3, laws=None):
+    """The :class:`CasePlan` of one load case, or the SolveError that stops it.
 
     ``laws``: the two-material stretch law of each condition (:func:`condition_laws`); without them the
     linear composite, the final condition as the initial one at the temperature plus the creep allowance.
@@ -237,24 +375,110 @@ def solve_case(where, case, h0_n, carry: StateCarrier, conductor, stringing, ice
     try:
         temperature_c = case.conductor_temperature_c(c)
     except SolveError as exc:
-        raise SolveError(f"{where}, load case {case.name!r}: conductor temperature from current_a = "
-                         f"{case.current_a:g} A cannot be found ({exc})") from None
+        return SolveError(f"{where}, load case {case.name!r}: conductor temperature from current_a = "
+                          f"{case.current_a:g} A cannot be found ({exc})")
     if laws:
         if case.condition not in laws:
-            raise SolveError(f"{where}, load case {case.name!r}: the final condition needs the aluminium's creep "
-                             f"([stringing] creep_strain, creep_allowance_c or final_horizontal_tension_kn)")
+            return SolveError(f"{where}, load case {case.name!r}: the final condition needs the aluminium's "
+                              f"creep ([stringing] creep_strain, creep_allowance_c or final_horizontal_tension_kn)")
         state_t, law1, law2 = temperature_c, laws["initial"], laws[case.condition]
     else:
         state_t = stringing.state_temperature_c(temperature_c, case.condition)
         law1 = law2 = c.law(stringing.temperature_c)
+    return CasePlan(case, load, temperature_c,
+                    StateRequest(carry, h0_n, load.resultant_n_m, state_t, law1, law2, load.blowout_rad))
+
+
+def finish_cases(where, cases, results) -> dict:
+    """``{case name: CaseState}`` from the prepared cases and their solved tensions (or errors), in order.
+
+    Raises
+    ------
+    SolveError
+        Every failing case of the section, together.
+    """
+    states, problems, results = {}, [], iter(results)
+    for plan in cases:
+        if isinstance(plan, SolveError):
+            problems.extend(plan.problems)
+            continue
+        h = next(results)
+        if isinstance(h, SolveError):
+            problems.append(f"{where}, load case {plan.case.name!r}: change of state cannot be solved ({h})")
+            continue
+        carry, load = plan.request.carry, plan.load
+        plane_span, plane_dz = swung_span(carry.spans_m, carry.dz_m, load.blowout_rad)
+        at_a, at_b = support_tensions(plane_span, plane_dz, h, load.resultant_n_m)
+        states[plan.case.name] = CaseState(plan.case.name, load, plan.case.condition, plan.temperature_c,
+                                           plan.request.temperature_c, h, float(np.max(np.maximum(at_a, at_b))))
+    if problems:
+        raise SolveError(problems)
+    return states
+
+
+def solve_case(where, case, h0_n, carry: StateCarrier, conductor, stringing, ice_density_kg_m3,
+               laws=None) -> CaseState:
+    """Carry the stringing state (``h0_n`` at the stringing temperature, bare) to one load case.
+
+    Raises
+    ------
+    SolveError
+        The case cannot be solved.
+    """
+    plan = prepare_case(where, case, h0_n, carry, conductor, stringing, ice_density_kg_m3, laws)
+    results = carry_states([plan.request]) if isinstance(plan, CasePlan) else []
+    return finish_cases(where, [plan], results)[case.name]
+
+
+def carry_states(requests) -> list:
+    """The tension [N] of each request, or the SolveError its change of state raised.
+
+    Requests of one method with equal laws (and, by section, equally many spans) are solved in one
+    vectorised call; if that call fails, each of its requests is solved alone, for its own answer or error.
+    """
+    out = [None] * len(requests)
+    groups = {}
+    for i, r in enumerate(requests):
+        key = (r.carry.method, len(r.carry.spans_m) if r.carry.method == "section" else 0, r.law1, r.law2)
+        try:
+            groups.setdefault(key, []).append(i)
+        except TypeError:  # laws that cannot be compared by value: on their own
+            groups[("alone", i)] = [i]
+    for members in groups.values():
+        chosen = [requests[i] for i in members]
+        try:
+            tensions = _carry_together(chosen)
+        except SolveError:
+            tensions = [_carry_alone(r) for r in chosen]
+        for i, h in zip(members, tensions):
+            out[i] = h if isinstance(h, SolveError) else float(h)
+    return out
+
+
+def _carry_together(requests):
+    """One vectorised change of state for requests of one method, laws and span count."""
+    first = requests[0]
+
+    def each(name, source=None):
+        return np.array([getattr(source(r) if source else r, name) for r in requests], dtype=float)
+
+    h0, carried = each("h0_n"), lambda r: r.carry
+    bare, start_c = each("bare_n_m", carried), each("stringing_c", carried)
+    weight, temperature, blowout = each("weight_n_m"), each("temperature_c"), each("blowout_rad")
+    if first.carry.method != "section":
+        return changes_of_state_by_law(each("ruling_m", carried), h0, bare, start_c, weight, temperature,
+                                       first.law1, first.law2)
+    spans = np.array([r.carry.spans_m for r in requests])
+    dz = np.array([r.carry.dz_m for r in requests])
+    return section_changes_of_state_by_law(spans, dz, h0, bare, start_c, weight, temperature, first.law1,
+                                           first.law2, loaded_spans=swung_span(spans, dz, blowout[:, None]))
+
+
+def _carry_alone(r: StateRequest):
     try:
-        h = carry.tension_n(h0_n, load.resultant_n_m, state_t, law1, law2, load.blowout_rad)
+        return r.carry.tension_n(r.h0_n, r.weight_n_m, r.temperature_c, r.law1, r.law2, r.blowout_rad)
     except SolveError as exc:
-        raise SolveError(f"{where}, load case {case.name!r}: change of state cannot be solved ({exc})") from None
-    plane_span, plane_dz = swung_span(carry.spans_m, carry.dz_m, load.blowout_rad)
-    at_a, at_b = support_tensions(plane_span, plane_dz, h, load.resultant_n_m)
-    return CaseState(case.name, load, case.condition, temperature_c, state_t, h,
-                     float(np.max(np.maximum(at_a, at_b))))
+        return exc
 
 
 def _row(section, case, state: CaseState, h0_n, conductor, design) -> dict:
