@@ -177,7 +177,7 @@ def engine_factory(project: Project, workers=1, scheduler=None):
 
     ``scheduler`` wins, then ``workers``; with ``workers`` None the project's ``[engine]`` table decides.
     """
-    from routesag.engine import check_scheduler, check_workers, make_engine
+    from routesag.engine import EngineChoice, check_scheduler, check_workers
 
     where = "--scheduler"
     if not scheduler and workers is None:
@@ -188,12 +188,14 @@ def engine_factory(project: Project, workers=1, scheduler=None):
         check_scheduler(scheduler, where)
     else:
         check_workers(workers)
-    return lambda sections: make_engine(workers, scheduler, sections)
+    return EngineChoice(workers, scheduler)
 
 
 def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=None) -> dict:
     """Run a chain from the project; the terrain reader is closed however the run ends."""
     data = {"project": project}
+    if hasattr(engine, "prepare"):  # worker processes start while the line-level phase runs
+        engine.prepare()
     try:
         run_chain(chain, data, ctx, progress=progress, engine=engine, on_section=on_section)
     finally:

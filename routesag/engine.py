@@ -80,16 +80,31 @@ class InProcess:
         pass
 
 
+#: Modules the worker processes' parent (the forkserver) imports once, so each worker starts with them loaded.
+PRELOAD = ("routesag.engine", "routesag.stages.conductors", "routesag.stages.terrain", "routesag.stages.surface",
+           "routesag.stages.crossings", "routesag.stages.clearance", "routesag.stages.unknowns",
+           "routesag.stages.point_clearance", "routesag.stages.output")
+
+
+def start_forkserver():
+    """The forkserver context, its server started now (it imports :data:`PRELOAD` in its own process while
+    this one goes on), so a pool made later forks workers that are ready at once. A plugin's modules are
+    left to the workers: one that fails to import must not take the server down."""
+    context = multiprocessing.get_context("forkserver")
+    context.set_forkserver_preload(list(PRELOAD))
+    from multiprocessing import forkserver
+
+    forkserver.ensure_running()
+    return context
+
+
 class WorkerPool:
     """Sections in ``workers`` local processes, results collected in task order."""
 
     def __init__(self, workers: int):
         self.workers = workers
         self.name = f"{workers} worker processes"
-        context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["routesag.engine", "routesag.stages.conductors", "routesag.stages.surface",
-                                        "routesag.stages.crossings", "routesag.stages.clearance"])
-        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=start_forkserver())
 
     def map(self, tasks):
         return in_order(self._pool.submit, tasks, self.workers * AHEAD_PER_WORKER)
@@ -147,6 +162,22 @@ def check_workers(workers: int, where: str = "workers") -> None:
     """Refuse a worker count that is not a whole number >= 0 (0: one per core)."""
     if isinstance(workers, bool) or not isinstance(workers, int) or workers < 0:
         raise EngineError(f"{where} = {workers!r}: give a whole number of worker processes >= 1 (0: one per core)")
+
+
+class EngineChoice:
+    """The engine a run asked for, made once the number of sections is known (``choice(sections)``);
+    :meth:`prepare` starts at the beginning of the run what is slow to start, so it overlaps the line-level
+    phase: the worker processes' parent and its imports."""
+
+    def __init__(self, workers: int | None = None, scheduler: str | None = None):
+        self.workers, self.scheduler = workers, scheduler
+
+    def prepare(self) -> None:
+        if not self.scheduler and (self.workers or default_workers()) > 1:
+            start_forkserver()
+
+    def __call__(self, sections: int | None = None):
+        return make_engine(self.workers, self.scheduler, sections)
 
 
 def make_engine(workers: int | None = None, scheduler: str | None = None, sections: int | None = None):
