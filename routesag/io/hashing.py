@@ -8,6 +8,7 @@ since, so a run never records the hash of a file other than the one it read.
 
 import hashlib
 import os
+import threading
 from pathlib import Path
 
 from routesag.errors import DataError
@@ -59,11 +60,39 @@ def signature(path) -> tuple:
     return tuple((name, signature(member)) for name, member in _folder_files(path))
 
 
-def fingerprint(path) -> tuple[str, tuple]:
-    """(SHA-256, signature) of an input as it is now."""
+def fingerprint(path) -> tuple["BackgroundDigest", tuple]:
+    """(SHA-256, signature) of an input as it is now; the SHA-256 is taken in a background thread
+    (``.result()`` waits for it), so hashing a large raster overlaps the run instead of delaying it."""
     before = signature(path)
-    digest = sha256_path(path)
-    return digest, before
+    return BackgroundDigest(path), before
+
+
+class BackgroundDigest:
+    """The SHA-256 of a file or folder dataset (:func:`sha256_path`), computed in a daemon thread.
+
+    hashlib and file reads release the GIL, so the thread runs beside the caller's work; a daemon thread
+    never holds up the end of a run that stops early.
+    """
+
+    def __init__(self, path):
+        self._done = threading.Event()
+        self._value: str | None = None
+        self._error: BaseException | None = None
+        threading.Thread(target=self._hash, args=(path,), name="routesag-sha256", daemon=True).start()
+
+    def _hash(self, path):
+        try:
+            self._value = sha256_path(path)
+        except BaseException as exc:  # handed to whoever asks for the digest
+            self._error = exc
+        finally:
+            self._done.set()
+
+    def result(self) -> str:
+        self._done.wait()
+        if self._error is not None:
+            raise self._error
+        return self._value
 
 
 def changed_since(path, recorded_signature) -> bool:
@@ -88,6 +117,8 @@ def input_sha256(role, path, ctx=None) -> str:
     if record is None or Path(record[0]) != Path(path):
         return sha256_path(path)
     _, digest, recorded = record
+    if isinstance(digest, BackgroundDigest):
+        digest = digest.result()  # before the signature check: the file must not change while it is hashed
     if changed_since(path, recorded):
         raise DataError(f"{role} file {path} changed while the run was reading it (replaced, rewritten or "
                         "removed); the results could mix two versions of it, so nothing was written: run again "

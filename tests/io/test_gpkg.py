@@ -209,3 +209,14 @@ def test_rows_written_from_arrays_read_back_as_pyogrios_own_writer_writes_them(t
 def test_linestring_wkb_is_shapelys():
     _, coords = mixed_columns()
     assert list(gpkg.linestrings_z_wkb(list(coords))) == list(shapely.to_wkb(shapely.linestrings(coords)))
+
+
+def test_background_digest_is_the_files_sha256_and_passes_on_a_read_error(tmp_path):
+    from routesag.io.hashing import BackgroundDigest, fingerprint
+
+    data = tmp_path / "terrain.bin"
+    data.write_bytes(os.urandom(3 << 20) + b"tail")  # several read chunks
+    digest, _ = fingerprint(data)
+    assert digest.result() == sha256_file(data)
+    with pytest.raises(FileNotFoundError):
+        BackgroundDigest(tmp_path / "gone.bin").result()
