@@ -12,6 +12,8 @@ from __future__ import annotations
 import logging
 import multiprocessing
 import os
+import sys
+import threading
 from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
@@ -80,7 +82,7 @@ class InProcess:
         pass
 
 
-#: Modules the worker processes' parent (the forkserver) imports once, so each worker starts with them loaded.
+#: Modules the forkserver imports once, so each worker it forks starts with them loaded.
 PRELOAD = ("routesag.engine", "routesag.stages.conductors", "routesag.stages.terrain", "routesag.stages.surface",
            "routesag.stages.crossings", "routesag.stages.clearance", "routesag.stages.unknowns",
            "routesag.stages.point_clearance", "routesag.stages.output")
@@ -98,13 +100,33 @@ def start_forkserver():
     return context
 
 
-class WorkerPool:
-    """Sections in ``workers`` local processes, results collected in task order."""
+def can_fork_now() -> bool:
+    """True when this process may be forked as it is: on Linux, with no other thread running (a thread could
+    hold a lock the child would inherit locked)."""
+    return sys.platform.startswith("linux") and threading.active_count() == 1
 
-    def __init__(self, workers: int):
+
+class WorkerPool:
+    """Sections in ``workers`` local processes, results collected in task order.
+
+    ``start()`` makes the processes at once: forked from this process when :func:`can_fork_now` (they
+    start with every module already imported, nothing is open yet at a run's start), else from the
+    forkserver. Without ``start()`` they come at the first section, from the forkserver (this process
+    then holds open rasters and threads).
+    """
+
+    def __init__(self, workers: int, fork: bool = False):
         self.workers = workers
         self.name = f"{workers} worker processes"
-        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=start_forkserver())
+        context = multiprocessing.get_context("fork") if fork else start_forkserver()
+        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+
+    @classmethod
+    def started(cls, workers: int) -> "WorkerPool":
+        """A pool whose processes exist now (see the class notes)."""
+        pool = cls(workers, fork=can_fork_now())
+        pool._pool.submit(os.getpid)  # a fork pool makes all its processes on the first submit
+        return pool
 
     def map(self, tasks):
         return in_order(self._pool.submit, tasks, self.workers * AHEAD_PER_WORKER)
@@ -165,19 +187,36 @@ def check_workers(workers: int, where: str = "workers") -> None:
 
 
 class EngineChoice:
-    """The engine a run asked for, made once the number of sections is known (``choice(sections)``);
-    :meth:`prepare` starts at the beginning of the run what is slow to start, so it overlaps the line-level
-    phase: the worker processes' parent and its imports."""
+    """The engine a run asked for, handed out once the number of sections is known (``choice(sections)``).
+
+    :meth:`prepare`, at the start of the run, starts a worker pool at once so its start-up overlaps the
+    line-level phase; it then has ``workers`` processes whatever the number of sections (with fewer
+    sections some stay idle; with one section it is closed and the section runs in process).
+    :meth:`discard_prepared` closes a prepared pool that was never handed out (a run that failed before its
+    sections).
+    """
 
     def __init__(self, workers: int | None = None, scheduler: str | None = None):
         self.workers, self.scheduler = workers, scheduler
+        self._prepared: WorkerPool | None = None
 
     def prepare(self) -> None:
-        if not self.scheduler and (self.workers or default_workers()) > 1:
-            start_forkserver()
+        workers = self.workers or default_workers()
+        if not self.scheduler and workers > 1 and self._prepared is None:
+            self._prepared = WorkerPool.started(workers)
 
     def __call__(self, sections: int | None = None):
+        pool, self._prepared = self._prepared, None
+        if pool is not None and (sections is None or sections > 1):
+            return pool
+        if pool is not None:
+            pool.close()
         return make_engine(self.workers, self.scheduler, sections)
+
+    def discard_prepared(self) -> None:
+        if self._prepared is not None:
+            self._prepared.close()
+            self._prepared = None
 
 
 def make_engine(workers: int | None = None, scheduler: str | None = None, sections: int | None = None):

@@ -67,6 +67,43 @@ def test_worker_processes_give_the_serial_output(three_sections, serial):
     assert_same_tables(got, serial)
 
 
+@pytest.mark.parametrize("fork", [True, False], ids=["forked", "forkserver"])
+def test_both_ways_of_starting_workers_give_the_serial_output(three_sections, serial, fork):
+    """A pool started at the run's start is forked from it; one started later comes from the forkserver."""
+    from routesag.api import run_project
+    from routesag.engine import WorkerPool
+    from routesag.project import load_project
+
+    out = three_sections.parent / f"pool-{fork}.gpkg"
+    pool = WorkerPool(2, fork=fork)
+    try:
+        run_project(load_project(three_sections, output=out), pool)
+    finally:
+        pool.close()
+    assert_same_tables(gpkg_tables(out), serial)
+
+
+def test_a_prepared_pool_exists_before_the_inputs_are_read_and_goes_when_the_run_fails(survey, monkeypatch):
+    import routesag
+    import routesag.engine
+    import routesag.stages.inputs
+
+    pools, processes = [], []
+
+    def fail(self, data, ctx):
+        processes.extend(pools[0]._pool._processes.values())  # made before the first stage ran
+        raise routesag.InputError(["the structures are gone"])
+
+    real_started = routesag.engine.WorkerPool.started
+    monkeypatch.setattr(routesag.engine.WorkerPool, "started",
+                        classmethod(lambda cls, n: pools.append(real_started.__func__(cls, n)) or pools[-1]))
+    monkeypatch.setattr(routesag.stages.inputs.ReadInputs, "run", fail)
+    with pytest.raises(routesag.InputError):
+        routesag.run(survey, workers=2)
+    assert len(pools) == 1 and pools[0].workers == 2 and processes
+    assert all(p.exitcode is not None for p in processes)  # shut down with the failed run
+
+
 @pytest.mark.slow  # starting a LocalCluster of 2 processes takes 10-25 s here
 def test_dask_local_cluster_gives_the_serial_output(three_sections, serial):
     pytest.importorskip("dask.distributed")
