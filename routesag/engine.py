@@ -106,6 +106,38 @@ def can_fork_now() -> bool:
     return sys.platform.startswith("linux") and threading.active_count() == 1
 
 
+#: prctl option: the signal a process gets when its parent dies (Linux, <sys/prctl.h>).
+_PR_SET_PDEATHSIG = 1
+
+
+def end_with_parent(parent_pid: int | None = None) -> None:
+    """Worker start-up: the worker ends when the run's process dies, so a run killed with SIGKILL leaves no
+    worker waiting for sections forever (and holding the terminal's pipes).
+
+    Two ways, as the parent differs: a forked worker's parent is the run's process, which the kernel is asked
+    to follow (Linux ``PR_SET_PDEATHSIG``; ``parent_pid`` catches a parent that died before the call); a
+    forkserver's worker watches the run's process through multiprocessing's parent sentinel in a thread.
+    """
+    if sys.platform.startswith("linux"):
+        import ctypes
+        import signal
+
+        ctypes.CDLL(None, use_errno=True).prctl(_PR_SET_PDEATHSIG, signal.SIGKILL)
+        if parent_pid is not None and os.getppid() != parent_pid:
+            os._exit(1)
+    run = multiprocessing.parent_process()
+    if parent_pid is None and run is not None:
+        threading.Thread(target=_exit_when_gone, args=(run.sentinel,), name="routesag-parent-watch",
+                         daemon=True).start()
+
+
+def _exit_when_gone(sentinel) -> None:
+    from multiprocessing.connection import wait
+
+    wait([sentinel])
+    os._exit(1)
+
+
 class WorkerPool:
     """Sections in ``workers`` local processes, results collected in task order.
 
@@ -119,7 +151,8 @@ class WorkerPool:
         self.workers = workers
         self.name = f"{workers} worker processes"
         context = multiprocessing.get_context("fork") if fork else start_forkserver()
-        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=end_with_parent,
+                                         initargs=(os.getpid() if fork else None,))
 
     @classmethod
     def started(cls, workers: int) -> "WorkerPool":

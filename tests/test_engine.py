@@ -5,7 +5,11 @@ value (geometry blobs byte for byte); only run_info's timing, host and engine en
 """
 from __future__ import annotations
 
+import signal
 import sqlite3
+import subprocess
+import sys
+import time
 
 import pytest
 from click.testing import CliRunner
@@ -200,3 +204,28 @@ def test_the_api_raises_an_engine_error_before_reading_anything(survey, monkeypa
                             ({"workers": -1}, "give a whole number of worker processes")):
         with pytest.raises(routesag.EngineError, match=message):
             routesag.run(survey, **kwargs)
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="workers end with their parent on Linux")
+@pytest.mark.parametrize("fork", [True, False], ids=["forked", "forkserver"])
+def test_workers_of_a_killed_run_end_with_it(fork):
+    """A run killed with SIGKILL cannot shut its pool down: its workers must not wait for sections forever."""
+    code = ("import os, signal, sys; from routesag.engine import WorkerPool; pool = WorkerPool(2, fork=sys.argv[1] == '1'); "
+            "[f.result() for f in [pool._pool.submit(os.getpid) for _ in range(4)]]; "
+            "print(' '.join(map(str, pool._pool._processes)), flush=True); os.kill(os.getpid(), signal.SIGKILL)")
+    done = subprocess.run([sys.executable, "-c", code, "1" if fork else "0"], capture_output=True, text=True,
+                          timeout=120)
+    workers = [int(pid) for pid in done.stdout.split()]
+    assert done.returncode == -signal.SIGKILL and workers
+
+    def alive(pid):
+        try:
+            with open(f"/proc/{pid}/status") as status:
+                return not any(line.startswith("State:") and "Z" in line.split()[1] for line in status)
+        except FileNotFoundError:
+            return False
+
+    deadline = time.monotonic() + 30
+    while any(map(alive, workers)) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert not any(map(alive, workers))
