@@ -9,6 +9,7 @@ import contextlib
 import functools
 import os
 import struct
+import threading
 from pathlib import Path
 
 import geopandas as gpd
@@ -118,6 +119,7 @@ class GeoPackageWriter:
         self.version = version
         self.layers: list[str] = []
         self.done = False
+        self._flusher: threading.Thread | None = None
 
     def write(self, name, frame, geometry_type=None, wkb=None, crs=None):
         """Create layer ``name`` with ``frame``'s rows, or append them when it exists (same columns).
@@ -137,6 +139,15 @@ class GeoPackageWriter:
             _write_one(self.temporary, name, frame, geometry_type, append=append, wkb=wkb, crs=crs)
         if not append:
             self.layers.append(name)
+        self._flush_in_background()
+
+    def _flush_in_background(self):
+        """Start sending the written pages to the disk (fsync in a thread, which releases the GIL), so the run
+        goes on while they travel and the flush before the rename has little left to do."""
+        if self._flusher is None or not self._flusher.is_alive():
+            self._flusher = threading.Thread(target=_fsync_quietly, args=(self.temporary,), daemon=True,
+                                             name="routesag-gpkg-flush")
+            self._flusher.start()
 
     def commit(self, finalize=None):
         """Make the written layers the file at ``path`` (atomic rename).
@@ -144,6 +155,8 @@ class GeoPackageWriter:
         ``finalize(temporary_path)``, when given, runs on the finished temporary file just before the rename.
         """
         with self._errors_in_words():
+            if self._flusher is not None:
+                self._flusher.join()
             stamp_version(self.temporary, self.version)
             if finalize is not None:
                 finalize(self.temporary)
@@ -340,6 +353,14 @@ def _fsync(path):
     """Flush the finished file to disk so the rename never exposes a partial file."""
     with open(path, "rb") as f:
         os.fsync(f.fileno())
+
+
+def _fsync_quietly(path):
+    """:func:`_fsync`, for a background thread: an error here is met again by the commit's own flush."""
+    try:
+        _fsync(path)
+    except OSError:
+        pass
 
 
 def _remove_with_sidecars(path):
