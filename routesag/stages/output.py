@@ -288,6 +288,10 @@ def case_columns(tensions) -> pd.DataFrame:
                      "condition", "rated_strength_n"] + [c for c in ("tension_source",) if c in tensions]]
 
 
+#: The tables a conductor row takes columns from, by the key it looks them up on.
+ENDS_KEY, CASE_KEY, CLEARANCE_KEY = ["span_id"], ["section_id", "wire", "load_case"], ["span_id", "wire", "load_case"]
+
+
 def conductor_rows(profiles, clearance, case_info, ends) -> tuple[pd.DataFrame, np.ndarray]:
     """Attributes of one conductor row per profile (tensions, sag, 3D length, load case, clearance summary) and
     each row's LineString Z as WKB."""
@@ -296,11 +300,9 @@ def conductor_rows(profiles, clearance, case_info, ends) -> tuple[pd.DataFrame, 
     columns["length_m"] = wire_lengths_m([p.xyz for p in profiles])
     columns["swung_sag_m"] = [p.swung_sag_m for p in profiles]
     columns["blowout_m"] = [p.blowout_m for p in profiles]
-    frame = pd.DataFrame(columns) if profiles else pd.DataFrame()
-    if len(frame):
-        frame = left_join(frame, ends, ["span_id"])
-        frame = left_join(frame, case_info, ["section_id", "wire", "load_case"])
-        frame = left_join(frame, clearance, ["span_id", "wire", "load_case"])
+    frame = pd.DataFrame()
+    if profiles:
+        frame = joined(columns, ((ends, ENDS_KEY), (case_info, CASE_KEY), (clearance, CLEARANCE_KEY)))
         frame["tension_percent_rts"] = 100.0 * frame["horizontal_tension_n"] / frame["rated_strength_n"]
         frame["max_tension_percent_rts"] = 100.0 * frame["max_tension_n"] / frame.pop("rated_strength_n")
         order = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case"]
@@ -324,16 +326,33 @@ def wire_lengths_m(parts) -> list[float]:
     return lengths
 
 
-def left_join(frame, right, on) -> pd.DataFrame:
-    """``frame.merge(right, on=on, how="left")``, by looking each row's key up when every key of ``right`` is
-    unique and found (a merge costs milliseconds per call, and a line has a call per section and table)."""
-    keys = list(zip(*(right[c] for c in on)))
-    position = {k: i for i, k in enumerate(keys)}
-    wanted = [position.get(k, -1) for k in zip(*(frame[c] for c in on))]
+def joined(columns: dict, joins) -> pd.DataFrame:
+    """The frame of ``columns`` (lists by name) left-merged with each ``(table, key)`` of ``joins`` in turn: by
+    looking each row's key up when that gives the merge's rows (a merge costs milliseconds per call, and a line
+    has three per section), else by the merges themselves."""
+    added = dict(columns)
+    for right, on in joins:
+        found = looked_up(added, right, on)
+        if found is None:
+            frame = pd.DataFrame(columns)
+            for table, key in joins:
+                frame = frame.merge(table, on=key, how="left")
+            return frame
+        added.update(found)
+    return pd.DataFrame(added)
+
+
+def looked_up(columns: dict, right: pd.DataFrame, on) -> dict | None:
+    """``right``'s other columns for each row of ``columns`` (lists by name), found by the ``on`` key, as a
+    left merge would add them; None when a key of ``right`` repeats, a row finds none or a name clashes
+    (then the merge itself decides)."""
+    position = {k: i for i, k in enumerate(zip(*(right[c] for c in on)))}
+    wanted = [position.get(k, -1) for k in zip(*(columns[c] for c in on))]
     others = [c for c in right.columns if c not in on]
-    if len(position) < len(keys) or -1 in wanted or set(others) & set(frame.columns):
-        return frame.merge(right, on=on, how="left")
-    return pd.concat([frame.reset_index(drop=True), right[others].iloc[wanted].reset_index(drop=True)], axis=1)
+    if len(position) < len(right) or -1 in wanted or set(others) & set(columns):
+        return None
+    taken = right[others].take(wanted)
+    return {c: taken[c].array for c in others}
 
 
 def empty_layer(columns, crs) -> gpd.GeoDataFrame:
