@@ -101,8 +101,9 @@ def start_forkserver():
 
 
 def can_fork_now() -> bool:
-    """True when this process may be forked as it is: on Linux, with no other thread running (a thread could
-    hold a lock the child would inherit locked)."""
+    """True when this process may be forked as it is: on Linux, with no other Python thread running (a thread
+    could hold a lock the child would inherit locked). Native threads, such as an idle BLAS pool, are not
+    counted: they hold no lock the workers use (CPython 3.12 and later warn about them all the same)."""
     return sys.platform.startswith("linux") and threading.active_count() == 1
 
 
