@@ -142,10 +142,10 @@ def _exit_when_gone(sentinel) -> None:
 class WorkerPool:
     """Sections in ``workers`` local processes, results collected in task order.
 
-    ``start()`` makes the processes at once: forked from this process when :func:`can_fork_now` (they
-    start with every module already imported, nothing is open yet at a run's start), else from the
-    forkserver. Without ``start()`` they come at the first section, from the forkserver (this process
-    then holds open rasters and threads).
+    ``WorkerPool.started(n)``, called at a run's start, makes the processes at once: forked from this
+    process when :func:`can_fork_now` (they start with every module already imported, and nothing of the
+    run is open yet), else from the forkserver. ``WorkerPool(n)`` makes them at the first section, from the
+    forkserver (``fork=True`` only where nothing is open and no other thread runs).
     """
 
     def __init__(self, workers: int, fork: bool = False):
