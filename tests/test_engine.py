@@ -210,8 +210,8 @@ def test_the_api_raises_an_engine_error_before_reading_anything(survey, monkeypa
 @pytest.mark.parametrize("fork", [True, False], ids=["forked", "forkserver"])
 def test_workers_of_a_killed_run_end_with_it(fork):
     """A run killed with SIGKILL cannot shut its pool down: its workers must not wait for sections forever."""
-    code = ("import os, signal, sys; from routesag.engine import WorkerPool; pool = WorkerPool(2, fork=sys.argv[1] == '1'); "
-            "[f.result() for f in [pool._pool.submit(os.getpid) for _ in range(4)]]; "
+    code = ("import os, signal, sys; from routesag.engine import WorkerPool; "
+            "pool = WorkerPool(2, fork=sys.argv[1] == '1'); [f.result() for f in [pool._pool.submit(os.getpid) for _ in range(4)]]; "
             "print(' '.join(map(str, pool._pool._processes)), flush=True); os.kill(os.getpid(), signal.SIGKILL)")
     done = subprocess.run([sys.executable, "-c", code, "1" if fork else "0"], capture_output=True, text=True,
                           timeout=120)
