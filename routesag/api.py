@@ -80,6 +80,7 @@ def run_batch(project_paths, workers=1, scheduler=None, progress=None, on_sectio
     """
     projects = load_batch(project_paths)
     factory = engine_factory(projects[0], workers, scheduler)
+    factory.prepare()
     engine = factory(None)
     results = []
     try:
@@ -177,7 +178,7 @@ def engine_factory(project: Project, workers=1, scheduler=None):
 
     ``scheduler`` wins, then ``workers``; with ``workers`` None the project's ``[engine]`` table decides.
     """
-    from routesag.engine import check_scheduler, check_workers, make_engine
+    from routesag.engine import EngineChoice, check_scheduler, check_workers
 
     where = "--scheduler"
     if not scheduler and workers is None:
@@ -188,19 +189,24 @@ def engine_factory(project: Project, workers=1, scheduler=None):
         check_scheduler(scheduler, where)
     else:
         check_workers(workers)
-    return lambda sections: make_engine(workers, scheduler, sections)
+    return EngineChoice(workers, scheduler)
 
 
 def _run_closing_terrain(chain, project, ctx, progress, engine=None, on_section=None) -> dict:
     """Run a chain from the project; the terrain reader is closed however the run ends."""
     data = {"project": project}
+    if hasattr(engine, "prepare"):  # worker processes start before the line-level phase, not after it
+        engine.prepare()
     try:
         run_chain(chain, data, ctx, progress=progress, engine=engine, on_section=on_section)
     finally:
-        # the terrain reader, and an output stream that was not committed (its temporary file goes)
+        # the terrain reader, an output stream that was not committed (its temporary file goes), and worker
+        # processes prepared for sections that never ran
         for name in ("terrain", "output_stream"):
             if hasattr(data.get(name), "close"):
                 data[name].close()
+        if hasattr(engine, "discard_prepared"):
+            engine.discard_prepared()
     return data
 
 

@@ -12,6 +12,8 @@ from __future__ import annotations
 import logging
 import multiprocessing
 import os
+import sys
+import threading
 from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
@@ -80,16 +82,85 @@ class InProcess:
         pass
 
 
-class WorkerPool:
-    """Sections in ``workers`` local processes, results collected in task order."""
+#: Modules the forkserver imports once, so each worker it forks starts with them loaded.
+PRELOAD = ("routesag.engine", "routesag.stages.conductors", "routesag.stages.terrain", "routesag.stages.surface",
+           "routesag.stages.crossings", "routesag.stages.clearance", "routesag.stages.unknowns",
+           "routesag.stages.point_clearance", "routesag.stages.output")
 
-    def __init__(self, workers: int):
+
+def start_forkserver():
+    """The forkserver context, its server started now (it imports :data:`PRELOAD` in its own process while
+    this one goes on), so a pool made later forks workers that are ready at once. A plugin's modules are
+    left to the workers: one that fails to import must not take the server down."""
+    context = multiprocessing.get_context("forkserver")
+    context.set_forkserver_preload(list(PRELOAD))
+    from multiprocessing import forkserver
+
+    forkserver.ensure_running()
+    return context
+
+
+def can_fork_now() -> bool:
+    """True when this process may be forked as it is: on Linux, with no other Python thread running (a thread
+    could hold a lock the child would inherit locked). Native threads, such as an idle BLAS pool, are not
+    counted: they hold no lock the workers use (CPython 3.12 and later warn about them all the same)."""
+    return sys.platform.startswith("linux") and threading.active_count() == 1
+
+
+#: prctl option: the signal a process gets when its parent dies (Linux, <sys/prctl.h>).
+_PR_SET_PDEATHSIG = 1
+
+
+def end_with_parent(parent_pid: int | None = None) -> None:
+    """Worker start-up: the worker ends when the run's process dies, so a run killed with SIGKILL leaves no
+    worker waiting for sections forever (and holding the terminal's pipes).
+
+    Two ways, as the parent differs: a forked worker's parent is the run's process, which the kernel is asked
+    to follow (Linux ``PR_SET_PDEATHSIG``; ``parent_pid`` catches a parent that died before the call); a
+    forkserver's worker watches the run's process through multiprocessing's parent sentinel in a thread.
+    """
+    if sys.platform.startswith("linux"):
+        import ctypes
+        import signal
+
+        ctypes.CDLL(None, use_errno=True).prctl(_PR_SET_PDEATHSIG, signal.SIGKILL)
+        if parent_pid is not None and os.getppid() != parent_pid:
+            os._exit(1)
+    run = multiprocessing.parent_process()
+    if parent_pid is None and run is not None:
+        threading.Thread(target=_exit_when_gone, args=(run.sentinel,), name="routesag-parent-watch",
+                         daemon=True).start()
+
+
+def _exit_when_gone(sentinel) -> None:
+    from multiprocessing.connection import wait
+
+    wait([sentinel])
+    os._exit(1)
+
+
+class WorkerPool:
+    """Sections in ``workers`` local processes, results collected in task order.
+
+    ``WorkerPool.started(n)``, called at a run's start, makes the processes at once: forked from this
+    process when :func:`can_fork_now` (they start with every module already imported, and nothing of the
+    run is open yet), else from the forkserver. ``WorkerPool(n)`` makes them at the first section, from the
+    forkserver (``fork=True`` only where nothing is open and no other thread runs).
+    """
+
+    def __init__(self, workers: int, fork: bool = False):
         self.workers = workers
         self.name = f"{workers} worker processes"
-        context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["routesag.engine", "routesag.stages.conductors", "routesag.stages.surface",
-                                        "routesag.stages.crossings", "routesag.stages.clearance"])
-        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+        context = multiprocessing.get_context("fork") if fork else start_forkserver()
+        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=end_with_parent,
+                                         initargs=(os.getpid() if fork else None,))
+
+    @classmethod
+    def started(cls, workers: int) -> "WorkerPool":
+        """A pool whose processes exist now (see the class notes)."""
+        pool = cls(workers, fork=can_fork_now())
+        pool._pool.submit(os.getpid)  # a fork pool makes all its processes on the first submit
+        return pool
 
     def map(self, tasks):
         return in_order(self._pool.submit, tasks, self.workers * AHEAD_PER_WORKER)
@@ -147,6 +218,39 @@ def check_workers(workers: int, where: str = "workers") -> None:
     """Refuse a worker count that is not a whole number >= 0 (0: one per core)."""
     if isinstance(workers, bool) or not isinstance(workers, int) or workers < 0:
         raise EngineError(f"{where} = {workers!r}: give a whole number of worker processes >= 1 (0: one per core)")
+
+
+class EngineChoice:
+    """The engine a run asked for, handed out once the number of sections is known (``choice(sections)``).
+
+    :meth:`prepare`, at the start of the run, starts a worker pool at once so its start-up overlaps the
+    line-level phase; it then has ``workers`` processes whatever the number of sections (with fewer
+    sections some stay idle; with one section it is closed and the section runs in process).
+    :meth:`discard_prepared` closes a prepared pool that was never handed out (a run that failed before its
+    sections).
+    """
+
+    def __init__(self, workers: int | None = None, scheduler: str | None = None):
+        self.workers, self.scheduler = workers, scheduler
+        self._prepared: WorkerPool | None = None
+
+    def prepare(self) -> None:
+        workers = self.workers or default_workers()
+        if not self.scheduler and workers > 1 and self._prepared is None:
+            self._prepared = WorkerPool.started(workers)
+
+    def __call__(self, sections: int | None = None):
+        pool, self._prepared = self._prepared, None
+        if pool is not None and (sections is None or sections > 1):
+            return pool
+        if pool is not None:
+            pool.close()
+        return make_engine(self.workers, self.scheduler, sections)
+
+    def discard_prepared(self) -> None:
+        if self._prepared is not None:
+            self._prepared.close()
+            self._prepared = None
 
 
 def make_engine(workers: int | None = None, scheduler: str | None = None, sections: int | None = None):

@@ -89,6 +89,9 @@ class RunContext:
     inputs: dict[str, tuple] = field(default_factory=dict)
     #: Functions the main process passes each finished section's results through, in order (output streams).
     section_sinks: list[Callable[[dict], dict]] = field(default_factory=list)
+    #: Functions of a section id giving a picklable function that reshapes that section's results where the
+    #: section ran, before they travel (an output stream turns profiles into rows there).
+    section_shapers: list[Callable[[str], Callable[[dict], dict]]] = field(default_factory=list)
 
     def warn(self, message: str) -> None:
         if message in self.warnings:  # sections repeat line-wide warnings
@@ -392,27 +395,35 @@ class SectionTask:
     stages: list[Stage]
     inputs: dict[str, Any]
     outputs: tuple[str, ...]
+    #: Applied in order to the outputs where the section ran (see ``RunContext.section_shapers``).
+    shapers: tuple[Callable[[dict], dict], ...] = ()
 
 
 def run_section(task: SectionTask, open_rasters: Callable[[dict], dict] = lambda d: d) -> tuple[dict, RunContext]:
-    """Run the section stages on one section's inputs; returns the wanted outputs and the section's context."""
+    """Run the section stages on one section's inputs; returns the wanted outputs (through the task's shapers)
+    and the section's context."""
     ctx = RunContext()
     data = open_rasters(dict(task.inputs))
     start = time.perf_counter()
     run_stages(task.stages, data, ctx)
+    outputs = {name: data[name] for name in task.outputs}
+    for shape in task.shapers:
+        outputs = shape(outputs)
     ctx.notes.setdefault("section_seconds", {})[task.section_id] = round(time.perf_counter() - start, 3)
-    return {name: data[name] for name in task.outputs}, ctx
+    return outputs, ctx
 
 
-def section_tasks(phases: Phases, data: Mapping[str, Any]):
-    """One :class:`SectionTask` per row of ``sections``, in order, each with its share of the inputs."""
+def section_tasks(phases: Phases, data: Mapping[str, Any], shapers=()):
+    """One :class:`SectionTask` per row of ``sections``, in order, each with its share of the inputs and, from
+    each of ``shapers`` (functions of the section id), what reshapes its outputs."""
     if SECTIONS not in data:
         raise PipelineError(f"per-section stages need the {SECTIONS!r} dataset")
     sections = data[SECTIONS]
     shares = {name: split_by_section(data[name], data) for name in phases.section_inputs}
     for section_id in sections["section_id"]:
         inputs = {name: share(section_id) for name, share in shares.items()}
-        yield SectionTask(str(section_id), phases.section, inputs, phases.section_outputs)
+        yield SectionTask(str(section_id), phases.section, inputs, phases.section_outputs,
+                          tuple(make(str(section_id)) for make in shapers))
 
 
 def split_by_section(value, data: Mapping[str, Any]) -> Callable[[str], Any]:
@@ -447,7 +458,7 @@ def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=
     """Run every section through ``engine`` and merge the results in section order."""
     from routesag.engine import InProcess  # the engine module imports this one
 
-    tasks = list(section_tasks(phases, data))
+    tasks = list(section_tasks(phases, data, ctx.section_shapers))
     made = engine is not None and not hasattr(engine, "map")
     engine = engine(len(tasks)) if made else (engine or InProcess())
     parts: list[dict] = []

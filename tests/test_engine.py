@@ -5,7 +5,11 @@ value (geometry blobs byte for byte); only run_info's timing, host and engine en
 """
 from __future__ import annotations
 
+import signal
 import sqlite3
+import subprocess
+import sys
+import time
 
 import pytest
 from click.testing import CliRunner
@@ -65,6 +69,43 @@ def assert_same_tables(got, expected):
 def test_worker_processes_give_the_serial_output(three_sections, serial):
     got = run_cli(three_sections, three_sections.parent / "pool.gpkg", "--workers", "2")
     assert_same_tables(got, serial)
+
+
+@pytest.mark.parametrize("fork", [True, False], ids=["forked", "forkserver"])
+def test_both_ways_of_starting_workers_give_the_serial_output(three_sections, serial, fork):
+    """A pool started at the run's start is forked from it; one started later comes from the forkserver."""
+    from routesag.api import run_project
+    from routesag.engine import WorkerPool
+    from routesag.project import load_project
+
+    out = three_sections.parent / f"pool-{fork}.gpkg"
+    pool = WorkerPool(2, fork=fork)
+    try:
+        run_project(load_project(three_sections, output=out), pool)
+    finally:
+        pool.close()
+    assert_same_tables(gpkg_tables(out), serial)
+
+
+def test_a_prepared_pool_exists_before_the_inputs_are_read_and_goes_when_the_run_fails(survey, monkeypatch):
+    import routesag
+    import routesag.engine
+    import routesag.stages.inputs
+
+    pools, processes = [], []
+
+    def fail(self, data, ctx):
+        processes.extend(pools[0]._pool._processes.values())  # made before the first stage ran
+        raise routesag.InputError(["the structures are gone"])
+
+    real_started = routesag.engine.WorkerPool.started
+    monkeypatch.setattr(routesag.engine.WorkerPool, "started",
+                        classmethod(lambda cls, n: pools.append(real_started.__func__(cls, n)) or pools[-1]))
+    monkeypatch.setattr(routesag.stages.inputs.ReadInputs, "run", fail)
+    with pytest.raises(routesag.InputError):
+        routesag.run(survey, workers=2)
+    assert len(pools) == 1 and pools[0].workers == 2 and processes
+    assert all(p.exitcode is not None for p in processes)  # shut down with the failed run
 
 
 @pytest.mark.slow  # starting a LocalCluster of 2 processes takes 10-25 s here
@@ -163,3 +204,28 @@ def test_the_api_raises_an_engine_error_before_reading_anything(survey, monkeypa
                             ({"workers": -1}, "give a whole number of worker processes")):
         with pytest.raises(routesag.EngineError, match=message):
             routesag.run(survey, **kwargs)
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="workers end with their parent on Linux")
+@pytest.mark.parametrize("fork", [True, False], ids=["forked", "forkserver"])
+def test_workers_of_a_killed_run_end_with_it(fork):
+    """A run killed with SIGKILL cannot shut its pool down: its workers must not wait for sections forever."""
+    code = ("import os, signal, sys; from routesag.engine import WorkerPool; "
+            "pool = WorkerPool(2, fork=sys.argv[1] == '1'); [f.result() for f in [pool._pool.submit(os.getpid) for _ in range(4)]]; "
+            "print(' '.join(map(str, pool._pool._processes)), flush=True); os.kill(os.getpid(), signal.SIGKILL)")
+    done = subprocess.run([sys.executable, "-c", code, "1" if fork else "0"], capture_output=True, text=True,
+                          timeout=120)
+    workers = [int(pid) for pid in done.stdout.split()]
+    assert done.returncode == -signal.SIGKILL and workers
+
+    def alive(pid):
+        try:
+            with open(f"/proc/{pid}/status") as status:
+                return not any(line.startswith("State:") and "Z" in line.split()[1] for line in status)
+        except FileNotFoundError:
+            return False
+
+    deadline = time.monotonic() + 30
+    while any(map(alive, workers)) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert not any(map(alive, workers))

@@ -20,18 +20,17 @@ from tests.test_validation import good_survey
 
 CHILD = textwrap.dedent("""
     import pathlib, sys, time
-    import pyogrio
     from routesag.io import gpkg
-    real = pyogrio.write_dataframe
+    real = gpkg._write_one
     marker = pathlib.Path(sys.argv[1])
 
-    def slow_write(df, path, layer=None, **kwargs):
-        real(df, path, layer=layer, **kwargs)
+    def slow_write(path, layer, *args, **kwargs):
+        real(path, layer, *args, **kwargs)
         if not marker.exists():
             marker.write_text(str(path))
             time.sleep(float(sys.argv[2]))
 
-    gpkg.pyogrio.write_dataframe = slow_write
+    gpkg._write_one = slow_write
     from routesag.cli import main
     main(sys.argv[3:])
 """)

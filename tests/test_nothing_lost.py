@@ -101,17 +101,17 @@ def test_failing_stage_through_cli_has_no_traceback(monkeypatch, earlier, error,
 def test_interrupted_write_leaves_earlier_output_identical(monkeypatch, earlier, error):
     """Interrupt the real pipeline while the third layer is being written to the temporary file."""
     project, out, before = earlier
-    real_write = pyogrio.write_dataframe
+    real_write = gpkg._write_one
     layers_written = []
 
-    def write_then_interrupt(df, path, layer=None, **kwargs):
+    def write_then_interrupt(path, layer, *args, **kwargs):
         if len(layers_written) == 2:
             assert os.path.exists(path) and path != out  # a temporary file beside the output
             raise error
-        real_write(df, path, layer=layer, **kwargs)
+        real_write(path, layer, *args, **kwargs)
         layers_written.append(layer)
 
-    monkeypatch.setattr(gpkg.pyogrio, "write_dataframe", write_then_interrupt)
+    monkeypatch.setattr(gpkg, "_write_one", write_then_interrupt)
     # A disk-full error is told in words (OutputError, exit 2); Ctrl-C stays what it is.
     with pytest.raises(OutputError if isinstance(error, OSError) else type(error)):
         routesag.run(project)
@@ -125,7 +125,7 @@ def test_interrupted_write_through_cli(monkeypatch, earlier):
     def interrupt(*args, **kwargs):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(gpkg.pyogrio, "write_dataframe", interrupt)
+    monkeypatch.setattr(gpkg, "_write_one", interrupt)
     result = CliRunner().invoke(main, ["run", str(project)])
     assert result.exit_code == 1 and "Aborted" in result.output and "Traceback" not in result.output
     assert snapshot(project.parent) == before

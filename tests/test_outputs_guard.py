@@ -115,7 +115,7 @@ def test_write_errors_are_told_in_words(project, monkeypatch, error, advice):
     def fail(*args, **kwargs):
         raise error
 
-    monkeypatch.setattr(gpkg.pyogrio, "write_dataframe", fail)
+    monkeypatch.setattr(gpkg, "_write_one", fail)
     result = CliRunner().invoke(main, ["run", str(project)])
     assert result.exit_code == 2, result.output
     assert "could not be written" in result.output and advice.replace("\\", "") in result.output.replace("\\", "")

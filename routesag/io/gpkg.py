@@ -6,13 +6,20 @@ failed or interrupted run therefore leaves the previous output as it was.
 """
 
 import contextlib
+import functools
 import os
+import struct
+import threading
 from pathlib import Path
 
 import geopandas as gpd
+import numpy as np
 import pandas as pd
 import pyogrio
 import pyogrio.errors
+import pyogrio.raw
+import pyproj
+import shapely
 
 from routesag.errors import DataError, OutputError
 from routesag.io.gpkg_version import DEFAULT_VERSION, stamp_version
@@ -20,6 +27,10 @@ from routesag.io.outputs_guard import check_output_target, keep_mode, temporary_
 
 #: Files SQLite may create beside a GeoPackage while it is being written.
 _SQLITE_SIDECARS = ("-journal", "-wal", "-shm")
+#: WKB of a LineString Z: byte order, type, point count, then x y z per point (OGC 06-103r4 clause 8.2;
+#: the Z flag 0x80000000 is the extended form shapely writes and GDAL reads).
+_LINESTRING_Z_HEADER = struct.Struct("<BII")
+_WKB_LINESTRING_Z = 0x80000002
 
 
 def write_layers(path, layers, *, protect=(), version=DEFAULT_VERSION, finalize=None):
@@ -108,19 +119,35 @@ class GeoPackageWriter:
         self.version = version
         self.layers: list[str] = []
         self.done = False
+        self._flusher: threading.Thread | None = None
 
-    def write(self, name, frame, geometry_type=None):
-        """Create layer ``name`` with ``frame``'s rows, or append them when it exists (same columns)."""
+    def write(self, name, frame, geometry_type=None, wkb=None, crs=None):
+        """Create layer ``name`` with ``frame``'s rows, or append them when it exists (same columns).
+
+        ``wkb``: each row's geometry already encoded (an array of WKB bytes, e.g. from
+        :func:`linestrings_z_wkb`), with ``frame`` a plain DataFrame of the attributes and ``crs``
+        the label :func:`crs_label` gives; the rows then never become geometry objects.
+        """
         if self.done:
             raise OutputError(f"{self.destination}: the GeoPackage is already committed or discarded")
-        name, frame, geometry_type = _prepare_layer(name, (frame, geometry_type))
+        if wkb is None:
+            name, frame, geometry_type = _prepare_layer(name, (frame, geometry_type))
         append = name in self.layers
         if append and len(frame) == 0:
             return
         with self._errors_in_words():
-            _write_one(self.temporary, name, frame, geometry_type, append=append)
+            _write_one(self.temporary, name, frame, geometry_type, append=append, wkb=wkb, crs=crs)
         if not append:
             self.layers.append(name)
+        self._flush_in_background()
+
+    def _flush_in_background(self):
+        """Start sending the written pages to the disk (fsync in a thread, which releases the GIL), so the run
+        goes on while they travel and the flush before the rename has little left to do."""
+        if self._flusher is None or not self._flusher.is_alive():
+            self._flusher = threading.Thread(target=_fsync_quietly, args=(self.temporary,), daemon=True,
+                                             name="routesag-gpkg-flush")
+            self._flusher.start()
 
     def commit(self, finalize=None):
         """Make the written layers the file at ``path`` (atomic rename).
@@ -128,6 +155,8 @@ class GeoPackageWriter:
         ``finalize(temporary_path)``, when given, runs on the finished temporary file just before the rename.
         """
         with self._errors_in_words():
+            if self._flusher is not None:
+                self._flusher.join()
             stamp_version(self.temporary, self.version)
             if finalize is not None:
                 finalize(self.temporary)
@@ -247,25 +276,91 @@ def _prepare_layer(name, spec):
     raise TypeError(f"layer {name!r}: expected a DataFrame, got {type(frame).__name__}")
 
 
-def _write_one(temporary, name, frame, geometry_type, append=False):
-    # pyogrio takes the CRS from the GeoDataFrame itself (write_dataframe has
-    # no crs argument), and writes a plain DataFrame as an attribute table.
+def _write_one(temporary, name, frame, geometry_type, append=False, wkb=None, crs=None):
     # SQLite need not sync each commit of the temporary file: the file is
     # fsync'd before the rename, and a crash before it leaves only the
     # temporary file, never a damaged destination.
     saved = pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS")
     pyogrio.set_gdal_config_options({"OGR_SQLITE_SYNCHRONOUS": "OFF"})
     try:
-        pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG",
-                                geometry_type=geometry_type, append=append)
+        if wkb is None and isinstance(frame, gpd.GeoDataFrame):
+            wkb, crs, frame = _encoded_geometry(frame, geometry_type)
+        fields = _field_arrays(frame) if wkb is not None or not isinstance(frame, gpd.GeoDataFrame) else None
+        if fields is None:  # what only pyogrio's frame writer knows: inferred geometry types, date-times
+            pyogrio.write_dataframe(frame, temporary, layer=name, driver="GPKG", geometry_type=geometry_type,
+                                    append=append)
+        else:
+            pyogrio.raw.write(temporary, wkb, fields[1], fields[0], field_mask=fields[2], layer=name,
+                              driver="GPKG", geometry_type=geometry_type if wkb is not None else None,
+                              crs=crs if wkb is not None else None, append=append)
     finally:
         pyogrio.set_gdal_config_options({"OGR_SQLITE_SYNCHRONOUS": saved})
+
+
+def _encoded_geometry(frame, geometry_type):
+    """(WKB array, CRS label, attribute frame) of a GeoDataFrame, or (None, None, frame) when pyogrio's frame
+    writer must decide (no geometry type given, or several geometry columns)."""
+    if geometry_type is None or (frame.dtypes == "geometry").sum() != 1:
+        return None, None, frame
+    column = frame.geometry.name
+    wkb = shapely.to_wkb(np.asarray(frame[column].array, dtype=object))
+    return wkb, crs_label(frame.crs), pd.DataFrame(frame.drop(columns=column))
+
+
+def _field_arrays(frame):
+    """(names, values, masks) of a frame's columns as pyogrio's frame writer hands them to GDAL, or None when a
+    column holds date-times (their time zones need that writer's own handling)."""
+    names, values, masks = list(frame.columns), [], []
+    for name in names:
+        column = frame[name]
+        if column.dtype.kind == "M" or (column.dtype == object and pd.api.types.infer_dtype(column) == "datetime"):
+            return None
+        array = column.values
+        if isinstance(array, (pd.arrays.IntegerArray, pd.arrays.FloatingArray, pd.arrays.BooleanArray)):
+            values.append(array._data)
+            masks.append(array._mask)
+        elif isinstance(array, pd.api.extensions.ExtensionArray):
+            values.append(np.asarray(array))
+            masks.append(np.asarray(array.isna()))
+        else:
+            values.append(array)
+            masks.append(None)
+    return names, values, masks
+
+
+@functools.lru_cache(maxsize=16)
+def _crs_label_of(crs):
+    epsg = crs.to_epsg()
+    return f"EPSG:{epsg}" if epsg else crs.to_wkt("WKT1_GDAL")
+
+
+def crs_label(crs) -> str | None:
+    """The CRS as pyogrio's frame writer names it to GDAL (``EPSG:n`` when it has a code, else WKT1), or None."""
+    if crs is None:
+        return None
+    return _crs_label_of(pyproj.CRS.from_user_input(crs))
+
+
+def linestrings_z_wkb(parts) -> np.ndarray:
+    """One WKB LineString Z (little-endian, Z flagged as shapely writes it) per (n, 3) coordinate array."""
+    wkb = np.empty(len(parts), dtype=object)
+    for i, xyz in enumerate(parts):
+        wkb[i] = _LINESTRING_Z_HEADER.pack(1, _WKB_LINESTRING_Z, len(xyz)) + np.ascontiguousarray(xyz, "<f8").tobytes()
+    return wkb
 
 
 def _fsync(path):
     """Flush the finished file to disk so the rename never exposes a partial file."""
     with open(path, "rb") as f:
         os.fsync(f.fileno())
+
+
+def _fsync_quietly(path):
+    """:func:`_fsync`, for a background thread: an error here is met again by the commit's own flush."""
+    try:
+        _fsync(path)
+    except OSError:
+        pass
 
 
 def _remove_with_sidecars(path):

@@ -60,13 +60,6 @@ def signature(path) -> tuple:
     return tuple((name, signature(member)) for name, member in _folder_files(path))
 
 
-def fingerprint(path) -> tuple[str, tuple]:
-    """(SHA-256, signature) of an input as it is now."""
-    before = signature(path)
-    digest = sha256_path(path)
-    return digest, before
-
-
 class BackgroundDigest:
     """SHA-256 of an input (:func:`sha256_path`) taken in a thread while the run goes on.
 
@@ -102,8 +95,9 @@ class BackgroundDigest:
         return self._digest
 
 
-def fingerprint_in_background(path, start=True) -> tuple[BackgroundDigest, tuple]:
-    """As :func:`fingerprint`, the digest computed in a thread (:class:`BackgroundDigest`, ``start`` as there)."""
+def fingerprint(path, start=True) -> tuple[BackgroundDigest, tuple]:
+    """(SHA-256, signature) of an input as it is now; the SHA-256 is taken in a thread
+    (:class:`BackgroundDigest`, ``start`` as there), so hashing a large raster overlaps the run."""
     before = signature(path)
     return BackgroundDigest(path, start), before
 
@@ -131,7 +125,7 @@ def input_sha256(role, path, ctx=None) -> str:
         return sha256_path(path)
     _, digest, recorded = record
     if isinstance(digest, BackgroundDigest):
-        digest = digest.result()
+        digest = digest.result()  # before the signature check: the file must not change while it is hashed
     if changed_since(path, recorded):
         raise DataError(f"{role} file {path} changed while the run was reading it (replaced, rewritten or "
                         "removed); the results could mix two versions of it, so nothing was written: run again "

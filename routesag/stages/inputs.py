@@ -7,7 +7,7 @@ import numpy as np
 
 from routesag.errors import DataError
 from routesag.io.extents import extent_message
-from routesag.io.hashing import fingerprint_in_background
+from routesag.io.hashing import fingerprint
 from routesag.io.structures import check_structures, read_structures_file, to_working_crs
 from routesag.io.terrain import TerrainSampler
 from routesag.pipeline import Stage
@@ -77,7 +77,7 @@ def record_inputs(project, ctx) -> None:
     digests = {}
     for role, path in project.input_paths().items():
         if path.exists():
-            digest, before = fingerprint_in_background(path, start=False)
+            digest, before = fingerprint(path, start=False)
             ctx.inputs[role] = (path, digest, before)
             digests[role] = digest
     return digests

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import json
 from collections import OrderedDict
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from datetime import datetime, timezone
 
 import geopandas as gpd
@@ -12,7 +12,7 @@ import pandas as pd
 import shapely
 
 from routesag import __version__
-from routesag.io.gpkg import GeoPackageWriter, write_layers
+from routesag.io.gpkg import GeoPackageWriter, crs_label, linestrings_z_wkb, write_layers
 from routesag.io.gpkg_version import DEFAULT_VERSION
 from routesag.io.hashing import input_sha256
 from routesag.io.layer_styles import write_layer_styles
@@ -32,6 +32,10 @@ INTEGER_COLUMNS = ("rank", "n_violations")
 STREAM_BATCH_STATIONS = 200_000
 
 
+#: Key of a section's results that holds its conductor rows, ready for the file (made where the section ran).
+ROWS = "conductor_rows"
+
+
 class OpenOutput(Stage):
     name = "open_output"
     requires = ("project", "structures", "spans", "sections", "tensions", "work_crs")
@@ -43,25 +47,60 @@ class OpenOutput(Stage):
         project = data["project"]
         stream = LayerStream(project.output_path, data, protect=tuple(project.input_paths().values()),
                              version=gpkg_version(project))
+        ctx.section_shapers.append(stream.rows_maker)
         ctx.section_sinks.append(stream.take_section)
         return {"output_stream": stream}
+
+
+@dataclass
+class SectionRows:
+    """One section's conductor rows as they travel: attributes, each row's LineString Z as WKB, station count."""
+
+    attributes: pd.DataFrame
+    wkb: np.ndarray
+    stations: int
+
+
+@dataclass
+class ConductorRowMaker:
+    """Turns one section's profiles into its conductor rows, in the process that ran the section (picklable).
+
+    What then travels is the rows (geometry as WKB bytes) and the profiles' summaries, not their stations.
+    """
+
+    ends: pd.DataFrame        # span_id, from_id, to_id of the spans
+    case_info: pd.DataFrame   # the section's load cases (see case_columns)
+    wire: str
+
+    def __call__(self, outputs: dict) -> dict:
+        if "conductors" not in outputs or "clearance" not in outputs:
+            return outputs
+        profiles = outputs["conductors"]
+        attributes, wkb = conductor_rows(profiles, outputs["clearance"], self.case_info, self.ends)
+        attributes = tidy_layers({"conductors": (attributes, None)}, self.wire)["conductors"][0]
+        rows = SectionRows(attributes, wkb, sum(len(p.xyz) for p in profiles))
+        return {**outputs, "conductors": summaries(profiles), ROWS: rows}
 
 
 class LayerStream:
     """The run's GeoPackage while it is being written: line-level layers first, then conductors by batches.
 
-    The 3D stations of a finished section go to the temporary file and leave
-    memory; what the finish keeps of each profile is its summary (tensions,
-    sag), with empty station arrays. Nothing reaches the destination before
-    :meth:`commit`; :meth:`close` without a commit removes the temporary file.
+    Each section's conductor rows are made where the section ran (:meth:`rows_maker`), so its 3D stations
+    reach this process only as WKB bytes, go to the temporary file and leave memory; what the finish keeps
+    of each profile is its summary (tensions, sag), with empty station arrays. Nothing reaches the
+    destination before :meth:`commit`; :meth:`close` without a commit removes the temporary file.
     """
 
     def __init__(self, path, data, protect=(), version=DEFAULT_VERSION):
         self.writer = GeoPackageWriter(path, protect=protect, version=version)
         self.crs, self.spans, self.tensions = data["work_crs"], data["spans"], data["tensions"]
         self.wire = only_wire(self.tensions)
+        self.ends = self.spans[["span_id", "from_id", "to_id"]]
+        self.case_info = case_columns(self.tensions)
+        self._cases = {k: g for k, g in self.case_info.groupby("section_id", sort=False)}
+        self._crs_label = crs_label(self.crs)
         self.early = tidy_layers(line_level_layers(data), self.wire)
-        self._pending: list[gpd.GeoDataFrame] = []
+        self._pending: list[SectionRows] = []
         self._pending_stations = 0
         self.streamed: set[str] = set()
         try:
@@ -71,26 +110,33 @@ class LayerStream:
             self.close()
             raise
 
+    def rows_maker(self, section_id: str) -> ConductorRowMaker:
+        """What turns section ``section_id``'s results into its conductor rows, wherever the section runs."""
+        return ConductorRowMaker(self.ends, self._cases.get(section_id, self.case_info.iloc[:0]), self.wire)
+
     def take_section(self, result: dict) -> dict:
-        """Sink of one section's results: its conductor rows are queued (and written by batch), its
-        profiles come back without stations."""
-        if "conductors" not in result or "clearance" not in result:
+        """Sink of one section's results, in section order: its conductor rows are queued (and written by
+        batch); the results go on without them (the profiles already without stations)."""
+        if ROWS not in result and "conductors" in result and "clearance" in result:  # made in no worker
+            result = ConductorRowMaker(self.ends, self.case_info, self.wire)(result)
+        if ROWS not in result:
             return result
-        profiles = result["conductors"]
-        rows = conductors_layer(profiles, result["clearance"], self.tensions, self.spans, self.crs)
-        self._pending.append(tidy_layers({"conductors": (rows, None)}, self.wire)["conductors"][0])
-        self._pending_stations += sum(len(p.xyz) for p in profiles)
+        rows = result[ROWS]
+        self._pending.append(rows)
+        self._pending_stations += rows.stations
         self.streamed.add("conductors")
         if self._pending_stations >= STREAM_BATCH_STATIONS:
             self.flush()
-        return {**result, "conductors": summaries(profiles)}
+        return {k: v for k, v in result.items() if k != ROWS}
 
     def flush(self) -> None:
         """Write the queued sections' conductor rows in one transaction."""
-        filled = [f for f in self._pending if len(f)] or self._pending[:1]
+        filled = [r for r in self._pending if len(r.attributes)] or self._pending[:1]
         if filled:
-            self.writer.write("conductors", pd.concat(filled, ignore_index=True) if len(filled) > 1 else filled[0],
-                              "LineString Z")
+            attributes = (pd.concat([r.attributes for r in filled], ignore_index=True) if len(filled) > 1
+                          else filled[0].attributes)
+            wkb = np.concatenate([r.wkb for r in filled]) if len(filled) > 1 else filled[0].wkb
+            self.writer.write("conductors", attributes, "LineString Z", wkb=wkb, crs=self._crs_label)
         self._pending, self._pending_stations = [], 0
 
     def finish(self, layers) -> None:
@@ -226,28 +272,87 @@ def sections_layer(sections, tensions) -> pd.DataFrame:
 
 def conductors_layer(profiles, clearance, tensions, spans, crs) -> gpd.GeoDataFrame:
     """One LineString Z per span and load case with tensions, sag and clearance summary."""
-    rows = []
-    for p in profiles:
-        length_m = float(np.linalg.norm(np.diff(p.xyz, axis=0), axis=1).sum())
-        rows.append({"span_id": p.span_id, "section_id": p.section_id, "wire": p.wire, "load_case": p.load_case,
-                     "horizontal_tension_n": p.horizontal_tension_n, "max_tension_n": p.max_tension_n,
-                     "catenary_m": p.catenary_m, "sag_m": p.sag_m, "low_point_m": p.low_point_m,
-                     "blowout_deg": p.blowout_deg, "length_m": length_m,
-                     "swung_sag_m": p.swung_sag_m, "blowout_m": p.blowout_m})
-    frame = pd.DataFrame(rows)
-    if len(frame):
-        ends = spans[["span_id", "from_id", "to_id"]]
-        case_info = tensions[["section_id", "wire", "load_case", "temperature_c", "current_a", "ice_mm", "wind_pa",
-                              "condition", "rated_strength_n"] + [c for c in ("tension_source",) if c in tensions]]
-        frame = (frame.merge(ends, on="span_id", how="left")
-                 .merge(case_info, on=["section_id", "wire", "load_case"], how="left")
-                 .merge(clearance, on=["span_id", "wire", "load_case"], how="left"))
+    attributes, wkb = conductor_rows(profiles, clearance, case_columns(tensions), spans[["span_id", "from_id",
+                                                                                            "to_id"]])
+    return gpd.GeoDataFrame(attributes, geometry=shapely.from_wkb(wkb), crs=crs)
+
+
+#: Profile attributes of a conductor row, in column order (length_m follows blowout_deg).
+PROFILE_COLUMNS = ("span_id", "section_id", "wire", "load_case", "horizontal_tension_n", "max_tension_n",
+                   "catenary_m", "sag_m", "low_point_m", "blowout_deg")
+
+
+def case_columns(tensions) -> pd.DataFrame:
+    """What a conductor row tells of its load case, by (section_id, wire, load_case)."""
+    return tensions[["section_id", "wire", "load_case", "temperature_c", "current_a", "ice_mm", "wind_pa",
+                     "condition", "rated_strength_n"] + [c for c in ("tension_source",) if c in tensions]]
+
+
+#: The tables a conductor row takes columns from, by the key it looks them up on.
+ENDS_KEY, CASE_KEY, CLEARANCE_KEY = ["span_id"], ["section_id", "wire", "load_case"], ["span_id", "wire", "load_case"]
+
+
+def conductor_rows(profiles, clearance, case_info, ends) -> tuple[pd.DataFrame, np.ndarray]:
+    """Attributes of one conductor row per profile (tensions, sag, 3D length, load case, clearance summary) and
+    each row's LineString Z as WKB."""
+    profiles = list(profiles)
+    columns = {c: [getattr(p, c) for p in profiles] for c in PROFILE_COLUMNS}
+    columns["length_m"] = wire_lengths_m([p.xyz for p in profiles])
+    columns["swung_sag_m"] = [p.swung_sag_m for p in profiles]
+    columns["blowout_m"] = [p.blowout_m for p in profiles]
+    frame = pd.DataFrame()
+    if profiles:
+        frame = joined(columns, ((ends, ENDS_KEY), (case_info, CASE_KEY), (clearance, CLEARANCE_KEY)))
         frame["tension_percent_rts"] = 100.0 * frame["horizontal_tension_n"] / frame["rated_strength_n"]
         frame["max_tension_percent_rts"] = 100.0 * frame["max_tension_n"] / frame.pop("rated_strength_n")
         order = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case"]
         frame = frame[order + [c for c in frame.columns if c not in order]]
-    geometry = [shapely.linestrings(p.xyz) for p in profiles]
-    return gpd.GeoDataFrame(frame, geometry=geometry, crs=crs)
+    return frame, linestrings_z_wkb([p.xyz for p in profiles])
+
+
+def wire_lengths_m(parts) -> list[float]:
+    """3D length of each polyline (n, 3) [m]: the sum of its segments' lengths, each sqrt(dx^2 + dy^2 + dz^2).
+
+    Summed in the order ``np.linalg.norm(np.diff(p, axis=0), axis=1).sum()`` sums (the same value to the
+    bit), without its per-call overhead: one profile is a few hundred points, a line thousands of profiles.
+    """
+    lengths = []
+    for p in parts:
+        d = p[1:] - p[:-1]
+        d *= d
+        squared = d[:, 0] + d[:, 1]
+        squared += d[:, 2]
+        lengths.append(float(np.sqrt(squared).sum()))
+    return lengths
+
+
+def joined(columns: dict, joins) -> pd.DataFrame:
+    """The frame of ``columns`` (lists by name) left-merged with each ``(table, key)`` of ``joins`` in turn: by
+    looking each row's key up when that gives the merge's rows (a merge costs milliseconds per call, and a line
+    has three per section), else by the merges themselves."""
+    added = dict(columns)
+    for right, on in joins:
+        found = looked_up(added, right, on)
+        if found is None:
+            frame = pd.DataFrame(columns)
+            for table, key in joins:
+                frame = frame.merge(table, on=key, how="left")
+            return frame
+        added.update(found)
+    return pd.DataFrame(added)
+
+
+def looked_up(columns: dict, right: pd.DataFrame, on) -> dict | None:
+    """``right``'s other columns for each row of ``columns`` (lists by name), found by the ``on`` key, as a
+    left merge would add them; None when a key of ``right`` repeats, a row finds none or a name clashes
+    (then the merge itself decides)."""
+    position = {k: i for i, k in enumerate(zip(*(right[c] for c in on)))}
+    wanted = [position.get(k, -1) for k in zip(*(columns[c] for c in on))]
+    others = [c for c in right.columns if c not in on]
+    if len(position) < len(right) or -1 in wanted or set(others) & set(columns):
+        return None
+    taken = right[others].take(wanted)
+    return {c: taken[c].array for c in others}
 
 
 def empty_layer(columns, crs) -> gpd.GeoDataFrame:

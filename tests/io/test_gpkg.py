@@ -91,17 +91,17 @@ def test_failure_midway_leaves_earlier_file_identical_and_no_temp(tmp_path, monk
     write_layers(out, {"summary": (summary_table(), None)})
     before = out.read_bytes()
 
-    real_write = pyogrio.write_dataframe
+    real_write = gpkg._write_one
     written = []
 
-    def write_then_fail(df, path, layer=None, **kwargs):
+    def write_then_fail(path, layer, *args, **kwargs):
         if layer == "conductors":  # second layer: the temp file already exists
             assert os.path.exists(path) and written == ["structures"]
             raise error
-        real_write(df, path, layer=layer, **kwargs)
+        real_write(path, layer, *args, **kwargs)
         written.append(layer)
 
-    monkeypatch.setattr(gpkg.pyogrio, "write_dataframe", write_then_fail)
+    monkeypatch.setattr(gpkg, "_write_one", write_then_fail)
     with pytest.raises(type(error)):
         write_layers(out, normal_layers())
     assert out.read_bytes() == before
@@ -164,3 +164,59 @@ def test_sha256_matches_published_vectors(tmp_path):
     # SHA-256 of the empty message, NIST CSRC example values (from memory).
     assert sha256_file(empty) == (
         "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855")
+
+
+def mixed_columns():
+    """Every kind of column the layers hold: text (with a gap), numbers (with NaN), whole numbers, flags."""
+    coords = np.array([[[500010.0, 6000020.0, 125.5], [500020.0, 6000022.0, 121.0]],
+                       [[500030.0, 6000025.0, 130.75], [500040.0, 6000027.0, 128.0]],
+                       [[500050.0, 6000029.0, 131.0], [500060.0, 6000031.0, 129.5]]])
+    frame = pd.DataFrame({"span_id": pd.array(["S1", None, "S3"], dtype="str"),
+                          "note": np.array(["a", None, "c"], dtype=object),
+                          "sag_m": [1.5, np.nan, 2.25], "rank": np.array([1, 2, 3], dtype="int64"),
+                          "count": pd.array([1, None, 3], dtype="Int64"), "forced": [True, False, True]})
+    return gpd.GeoDataFrame(frame, geometry=shapely.linestrings(coords), crs=CRS), coords
+
+
+def test_rows_written_from_arrays_read_back_as_pyogrios_own_writer_writes_them(tmp_path):
+    layer, coords = mixed_columns()
+    ours, theirs, encoded = tmp_path / "ours.gpkg", tmp_path / "theirs.gpkg", tmp_path / "encoded.gpkg"
+    write_layers(ours, {"c": (layer, "LineString Z"), "t": (pd.DataFrame(layer.drop(columns="geometry")), None)})
+    pyogrio.write_dataframe(layer, theirs, layer="c", driver="GPKG", geometry_type="LineString Z")
+    pyogrio.write_dataframe(pd.DataFrame(layer.drop(columns="geometry")), theirs, layer="t", driver="GPKG",
+                            append=False)
+    with gpkg.GeoPackageWriter(encoded) as writer:  # geometry as WKB built from the coordinates, no objects
+        attributes = pd.DataFrame(layer.drop(columns="geometry"))
+        writer.write("c", attributes.iloc[:1], "LineString Z", wkb=gpkg.linestrings_z_wkb(coords[:1]),
+                     crs=gpkg.crs_label(CRS))
+        writer.write("c", attributes.iloc[1:], "LineString Z", wkb=gpkg.linestrings_z_wkb(coords[1:]),
+                     crs=gpkg.crs_label(CRS))
+        writer.commit()
+    for name in ("c", "t"):
+        expected = pyogrio.read_dataframe(theirs, layer=name)
+        for path in (ours, encoded) if name == "c" else (ours,):
+            info, reference = pyogrio.read_info(path, layer=name), pyogrio.read_info(theirs, layer=name)
+            assert list(info["fields"]) == list(reference["fields"])
+            assert list(info["dtypes"]) == list(reference["dtypes"])
+            assert info["geometry_type"] == reference["geometry_type"] and info["crs"] == reference["crs"]
+            got = pyogrio.read_dataframe(path, layer=name)
+            pd.testing.assert_frame_equal(pd.DataFrame(got.drop(columns="geometry", errors="ignore")),
+                                          pd.DataFrame(expected.drop(columns="geometry", errors="ignore")))
+            if name == "c":
+                assert list(shapely.to_wkb(got.geometry.array)) == list(shapely.to_wkb(expected.geometry.array))
+
+
+def test_linestring_wkb_is_shapelys():
+    _, coords = mixed_columns()
+    assert list(gpkg.linestrings_z_wkb(list(coords))) == list(shapely.to_wkb(shapely.linestrings(coords)))
+
+
+def test_background_digest_is_the_files_sha256_and_passes_on_a_read_error(tmp_path):
+    from routesag.io.hashing import BackgroundDigest, fingerprint
+
+    data = tmp_path / "terrain.bin"
+    data.write_bytes(os.urandom(3 << 20) + b"tail")  # several read chunks
+    digest, _ = fingerprint(data)
+    assert digest.result() == sha256_file(data)
+    with pytest.raises(FileNotFoundError):
+        BackgroundDigest(tmp_path / "gone.bin").result()

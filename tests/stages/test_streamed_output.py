@@ -1,6 +1,7 @@
 """Streamed output: conductors reach the temporary GeoPackage section by section, the result is unchanged."""
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
 import pyogrio
 import pytest
@@ -117,3 +118,54 @@ def test_input_hashes_are_those_of_the_files(deep):
     for role in ("structures", "terrain"):
         path = info[f"input.{role}"]
         assert info[f"input.{role}.sha256"] == sha256_file(path)
+
+
+def test_wire_lengths_at_once_equal_each_polyline_measured_alone():
+    rng = np.random.default_rng(8)
+    parts = [np.cumsum(rng.normal(size=(n, 3)) * 50.0, axis=0) + 5e5 for n in (2, 3, 17, 1, 250, 2)]
+    alone = [float(np.linalg.norm(np.diff(p, axis=0), axis=1).sum()) for p in parts]
+    assert output.wire_lengths_m(parts) == alone  # bit for bit: the same sums, not only close
+    assert output.wire_lengths_m([]) == []
+
+
+def test_sections_travel_as_rows_and_summaries(deep):
+    """Where a section runs, its profiles become conductor rows (geometry as WKB) and summaries without stations;
+    the main process receives no station array."""
+    from routesag.pipeline import RunContext, assemble_chain, section_tasks, split_phases, run_section, run_stages
+    from routesag.project import load_project
+
+    project = load_project(deep, output=deep.parent / "rows.gpkg")
+    phases = split_phases(assemble_chain(project.pipeline_stages))
+    ctx, data = RunContext(), {"project": project}
+    try:
+        run_stages(phases.start, data, ctx)
+        task = next(section_tasks(phases, data, ctx.section_shapers))
+        result, _ = run_section(task)
+        rows = result[output.ROWS]
+        assert all(len(p.xyz) == 0 for p in result["conductors"])
+        assert len(rows.attributes) == len(rows.wkb) == len(result["conductors"])
+        assert rows.stations == sum(len(shapely.get_coordinates(g)) for g in shapely.from_wkb(rows.wkb))
+        assert "geometry" not in rows.attributes and rows.attributes["section_id"].eq(task.section_id).all()
+    finally:
+        data["output_stream"].close()
+        data["terrain"].close()
+    assert not (deep.parent / "rows.gpkg").exists()
+
+
+@pytest.mark.parametrize("right_rows", [
+    [("S2", "a", 2.0), ("S1", "a", 1.0), ("S1", "b", 1.5)],                 # every key once, in another order
+    [("S1", "a", 1.0)],                                                      # some rows find nothing
+    [("S1", "a", 1.0), ("S1", "a", 9.0), ("S2", "a", 2.0), ("S1", "b", 3.0)],  # a key twice: rows repeat
+])
+def test_looked_up_columns_are_the_left_merges_or_none(right_rows):
+    left = pd.DataFrame({"span_id": ["S1", "S2", "S1"], "wire": ["a", "a", "b"], "sag_m": [1.0, 2.0, 3.0]})
+    right = pd.DataFrame(right_rows, columns=["span_id", "wire", "required_m"]).assign(status="ok")
+    for on in (["span_id", "wire"], ["span_id"]):
+        r = right.drop(columns="wire") if on == ["span_id"] else right
+        found = output.looked_up(left.to_dict("list"), r, on)
+        merged = left.merge(r, on=on, how="left")
+        if found is None:  # the merge decides: it repeats or misses rows
+            assert len(merged) != len(left) or merged["required_m"].isna().any()
+        else:
+            pd.testing.assert_frame_equal(left.assign(**found), merged)
+        pd.testing.assert_frame_equal(output.joined(left.to_dict("list"), [(r, on)]), merged)  # either way
