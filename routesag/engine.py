@@ -102,9 +102,10 @@ def start_forkserver():
 
 def can_fork_now() -> bool:
     """True when this process may be forked as it is: on Linux, with no other Python thread running (a thread
-    could hold a lock the child would inherit locked). Native threads, such as an idle BLAS pool, are not
-    counted: they hold no lock the workers use (CPython 3.12 and later warn about them all the same)."""
-    return sys.platform.startswith("linux") and threading.active_count() == 1
+    could hold a lock the child would inherit locked), and before CPython 3.12. Native threads, such as an
+    idle BLAS pool, are not counted: they hold no lock the workers use; but CPython 3.12 and later warn on
+    every fork of a process that has any, so there the forkserver (started as early) is used instead."""
+    return sys.platform.startswith("linux") and sys.version_info < (3, 12) and threading.active_count() == 1
 
 
 #: prctl option: the signal a process gets when its parent dies (Linux, <sys/prctl.h>).
