@@ -130,10 +130,17 @@ class Registry(dict):
         self.clashes: dict[str, list[str]] = {}
 
 
-def _distribution(ep) -> str:
+def _distribution(ep, names: dict | None = None) -> str:
+    """The normalised name of the distribution registering ``ep``; ``names`` memoises it by distribution, as
+    reading a name parses the distribution's whole metadata file and one distribution registers many stages."""
     dist = getattr(ep, "dist", None)
+    if names is not None and dist is not None and id(dist) in names:
+        return names[id(dist)]
     name = getattr(dist, "name", None) or (ep.value.split(".")[0] if ep.value else "?")
-    return name.lower().replace("_", "-")
+    name = name.lower().replace("_", "-")
+    if names is not None and dist is not None:
+        names[id(dist)] = name
+    return name
 
 
 def available_stages() -> Registry:
@@ -144,7 +151,9 @@ def available_stages() -> Registry:
     and refused by :func:`assemble_chain` unless the project names the provider as ``distribution:name``.
     """
     stages = Registry()
-    for ep in entry_points(group=ENTRY_POINT_GROUP):
+    eps = entry_points(group=ENTRY_POINT_GROUP)
+    names: dict[int, str] = {}  # by id() of distributions that eps keeps alive
+    for ep in eps:
         try:
             cls = ep.load()
             stage = cls()
@@ -152,7 +161,7 @@ def available_stages() -> Registry:
                 stage.name = ep.name
         except Exception as exc:  # a broken plugin must never break the CLI
             stage = BrokenStage(ep.name, exc)
-        dist = _distribution(ep)
+        dist = _distribution(ep, names)
         try:
             stage.distribution = dist
         except AttributeError:
