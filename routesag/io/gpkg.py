@@ -155,12 +155,12 @@ class GeoPackageWriter:
         ``finalize(temporary_path)``, when given, runs on the finished temporary file just before the rename.
         """
         with self._errors_in_words():
+            stamp_version(self.temporary, self.version)
+            if finalize is not None:  # while the background flush may still be sending the layers' pages
+                finalize(self.temporary)
             if self._flusher is not None:
                 self._flusher.join()
-            stamp_version(self.temporary, self.version)
-            if finalize is not None:
-                finalize(self.temporary)
-            _fsync(self.temporary)
+            _fsync(self.temporary)  # after every write: what the rename exposes is on the disk
             keep_mode(self.temporary, self.destination)
             os.replace(self.temporary, self.destination)
         self.done = True

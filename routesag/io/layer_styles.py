@@ -32,22 +32,25 @@ CREATE_TABLE = f"""CREATE TABLE IF NOT EXISTS "{STYLE_TABLE}" (
 
 
 # ---- the styles: what each layer shows ---------------------------------------------------------------------------
-def styles_for(con: sqlite3.Connection) -> dict:
+def styles_for(con: sqlite3.Connection, load_cases=None) -> dict:
     """{layer: (geometry column, rules, label field or None)} for the styled layers present in the file.
 
     A rule is (label, filter, symbol); filter is ('=', field, value), ('range', field, low, high) or None.
+    ``load_cases``: the conductors' load cases in the order of their first row, when the writer knows them
+    (else they are read from the file, a scan of the whole layer).
     """
     geometry = dict(con.execute("SELECT table_name, column_name FROM gpkg_geometry_columns"))
-    wanted = {"conductors": lambda: _case_rules(con), "clearance_violations": lambda: _deficit_rules("violation"),
+    wanted = {"conductors": lambda: _case_rules(con, load_cases), "clearance_violations": lambda: _deficit_rules("violation"),
               "hotspots": lambda: _deficit_rules("hotspot"), "unknown_stretches": _unknown_rules,
               "structures": _structure_rules, "spans": _span_rules}
     labels = {"structures": "structure_id", "hotspots": "rank"}
     return {name: (geometry[name], rules(), labels.get(name)) for name, rules in wanted.items() if name in geometry}
 
 
-def _case_rules(con):
-    cases = [row[0] for row in con.execute(
-        'SELECT "load_case" FROM "conductors" GROUP BY "load_case" ORDER BY MIN(rowid)')]
+def _case_rules(con, cases=None):
+    if cases is None:
+        cases = [row[0] for row in con.execute(
+            'SELECT "load_case" FROM "conductors" GROUP BY "load_case" ORDER BY MIN(rowid)')]
     return [(f"load case {case}", ("=", "load_case", case),
              {"kind": "line", "colour": palette.case_colour(i), "width_mm": 0.6, "dash": i}) for i, case in
             enumerate(cases)]
@@ -243,13 +246,14 @@ def sld(layer, rules, label_field=None) -> str:
 
 
 # ---- writing into the GeoPackage -----------------------------------------------------------------------------------
-def write_layer_styles(path) -> list[str]:
+def write_layer_styles(path, load_cases=None) -> list[str]:
     """Store default styles for the styled layers present in the GeoPackage at ``path``; returns their names.
 
     Replaces earlier default styles of those layers; writes nothing when none of them is present.
+    ``load_cases`` as in :func:`styles_for`.
     """
     with closing(sqlite3.connect(path)) as con, con:
-        styles = styles_for(con)
+        styles = styles_for(con, load_cases)
         if not styles:
             return []
         con.execute(CREATE_TABLE)

@@ -4,6 +4,7 @@ from __future__ import annotations
 import json
 from collections import OrderedDict
 from dataclasses import dataclass, replace
+from functools import partial
 from datetime import datetime, timezone
 
 import geopandas as gpd
@@ -99,12 +100,31 @@ class LayerStream:
         self.case_info = case_columns(self.tensions)
         self._cases = {k: g for k, g in self.case_info.groupby("section_id", sort=False)}
         self._crs_label = crs_label(self.crs)
-        self.early = tidy_layers(line_level_layers(data), self.wire)
+        self._data = data  # the run's datasets: the line-level ones are complete once the sections run
+        self._early: OrderedDict | None = None
+        self._line_level_written = False
         self._pending: list[SectionRows] = []
         self._pending_stations = 0
         self.streamed: set[str] = set()
+        #: Load cases in the order of their first conductor row (the layer styles' legend), as written.
+        self.load_cases: dict[str, None] = {}
+
+    @property
+    def early(self) -> OrderedDict:
+        """The line-level layers (structures, spans, sections), built once when first needed."""
+        if self._early is None:
+            self._early = tidy_layers(line_level_layers(self._data), self.wire)
+        return self._early
+
+    def write_line_level(self) -> None:
+        """Write the line-level layers and tables, once. Called as the first section's results arrive, while
+        the workers go on with the next ones, so none of it delays the first section being sent; and by
+        :meth:`finish` when no section ran."""
+        if self._line_level_written:
+            return
+        self._line_level_written = True
         try:
-            for name, (frame, geometry) in self.early.items():
+            for name, (frame, geometry) in {**self.early, **line_level_tables(self._data, self.wire)}.items():
                 self.writer.write(name, frame, geometry)
         except BaseException:
             self.close()
@@ -121,6 +141,7 @@ class LayerStream:
             result = ConductorRowMaker(self.ends, self.case_info, self.wire)(result)
         if ROWS not in result:
             return result
+        self.write_line_level()
         rows = result[ROWS]
         self._pending.append(rows)
         self._pending_stations += rows.stations
@@ -137,15 +158,24 @@ class LayerStream:
                           else filled[0].attributes)
             wkb = np.concatenate([r.wkb for r in filled]) if len(filled) > 1 else filled[0].wkb
             self.writer.write("conductors", attributes, "LineString Z", wkb=wkb, crs=self._crs_label)
+            self._note_load_cases(attributes)
         self._pending, self._pending_stations = [], 0
+
+    def _note_load_cases(self, attributes) -> None:
+        if "load_case" in attributes:
+            self.load_cases.update(dict.fromkeys(pd.unique(attributes["load_case"])))
 
     def finish(self, layers) -> None:
         """Write the remaining layers in order after the streamed ones, then move the file into place."""
+        self.write_line_level()
         self.flush()
         for name, (frame, geometry) in layers.items():
             if name not in self.writer.layers:
                 self.writer.write(name, frame, geometry)
-        self.writer.commit(finalize=write_layer_styles)
+                if name == "conductors":
+                    self._note_load_cases(frame)
+        cases = list(self.load_cases) if "conductors" in self.writer.layers else None
+        self.writer.commit(finalize=partial(write_layer_styles, load_cases=cases))
 
     def close(self) -> None:
         self.writer.discard()
@@ -165,6 +195,23 @@ def line_level_layers(data) -> OrderedDict:
     layers["spans"] = (spans_layer(spans, crs), "LineString Z")
     layers["sections"] = (sections_layer(data["sections"], data["tensions"]), None)
     return layers
+
+
+#: Line-level attribute tables, usually made before the sections run, written while they run (dataset -> its
+#: layer). Only tables: a GeoPackage reader lists them after every spatial layer, in the order they were made,
+#: so writing them early leaves the file's list of layers as it was.
+LINE_LEVEL_TABLES = {
+    "tension_exceedances": lambda data: data["tension_exceedances"].copy(),
+    "sag_table": lambda data: data["sag_table"].copy(),
+}
+
+
+def line_level_tables(data, wire: str) -> OrderedDict:
+    """The layers of :data:`LINE_LEVEL_TABLES` whose datasets are already made, as :class:`AssembleLayers` makes
+    them (same functions on the same datasets)."""
+    layers = OrderedDict((name, (make(data), None)) for name, make in LINE_LEVEL_TABLES.items()
+                         if data.get(name) is not None)
+    return tidy_layers(layers, wire)
 
 
 def gpkg_version(project) -> str:

@@ -169,3 +169,35 @@ def test_looked_up_columns_are_the_left_merges_or_none(right_rows):
         else:
             pd.testing.assert_frame_equal(left.assign(**found), merged)
         pd.testing.assert_frame_equal(output.joined(left.to_dict("list"), [(r, on)]), merged)  # either way
+
+
+def test_line_level_layers_reach_the_file_as_the_first_section_arrives(deep, monkeypatch):
+    """They are written while the sections run, not before the first is sent (nor all at the end)."""
+    seen = []
+    real_take = output.LayerStream.take_section
+
+    def take_and_look(self, result):
+        taken = real_take(self, result)
+        seen.append(list(self.writer.layers))
+        return taken
+
+    monkeypatch.setattr(output, "STREAM_BATCH_STATIONS", 10**9)
+    monkeypatch.setattr(output.LayerStream, "take_section", take_and_look)
+    routesag.run(deep, read_back=False)
+    assert len(seen) == 2 and seen[0] == seen[1]  # two sections; all written at the first
+    assert seen[0] == ["structures", "spans", "sections", "tension_exceedances", "sag_table"]
+
+
+def test_the_styles_legend_from_the_written_rows_equals_the_one_read_from_the_file(deep, tmp_path):
+    import sqlite3
+    from contextlib import closing
+
+    from routesag.io.layer_styles import styles_for
+
+    result = routesag.run(deep, out=tmp_path / "legend.gpkg", read_back=False)
+    with closing(sqlite3.connect(result.path)) as con:
+        read = styles_for(con)["conductors"]
+        qml = con.execute("SELECT styleQML FROM layer_styles WHERE f_table_name = 'conductors'").fetchone()[0]
+    cases = [rule[1][2] for rule in read[1]]
+    assert cases == [c["name"] for c in result.project.settings["load_cases"]]  # order of the project's cases
+    assert all(f"load case {case}" in qml for case in cases)
