@@ -57,6 +57,9 @@ class Stage:
     per_section: ClassVar[bool] = False
     #: Datasets of this stage written as extra output layers: dataset name -> geometry type (None: a table).
     output_layers: ClassVar[Mapping[str, str | None]] = {}
+    #: A line-level start stage that may run while the sections run (after the first one's results arrive),
+    #: as long as no section stage and no other start stage needs what it provides (see :func:`run_chain`).
+    beside_sections: ClassVar[bool] = False
 
     def run(self, data: Mapping[str, Any], ctx: "RunContext") -> dict[str, Any]:
         raise NotImplementedError
@@ -323,6 +326,20 @@ class Phases:
         return tuple(d for d in made if d in wanted)
 
 
+def beside_sections(phases: Phases) -> list[Stage]:
+    """The start stages that may run while the sections run: those declaring ``beside_sections`` whose
+    datasets no section stage and no start stage that runs before the sections needs."""
+    beside = [s for s in phases.start if s.beside_sections]
+    while True:
+        before = [s for s in phases.start if s not in beside]
+        needed = set(phases.section_inputs) | {d for s in before + phases.section
+                                                for d in effective_requires(s, phases.start)}
+        kept = [s for s in beside if not set(s.provides) & needed]
+        if kept == beside:
+            return beside
+        beside = kept
+
+
 def split_phases(chain: list[Stage]) -> Phases:
     """Cut an ordered chain into :class:`Phases`.
 
@@ -385,12 +402,14 @@ def run_chain(chain: list[Stage], data: dict[str, Any], ctx: RunContext, progres
     results arrive, and once with ``done`` 0 (and no id) before the first.
     """
     phases = split_phases(chain)
-    run_stages(phases.start, data, ctx, progress)
+    beside = beside_sections(phases) if phases.section else []
+    run_stages([s for s in phases.start if s not in beside], data, ctx, progress)
     if phases.section:
         if progress:
             for stage in phases.section:
                 progress(stage.name)
-        data.update(run_sections(phases, data, ctx, engine, on_section))
+        data.update(run_sections(phases, data, ctx, engine, on_section,
+                                 beside=lambda: run_stages(beside, data, ctx, progress)))
     for name, geometry in ((n, g) for s in phases.section for n, g in s.output_layers.items()):
         ctx.output_layers.setdefault(name, geometry)
     return run_stages(phases.finish, data, ctx, progress)
@@ -463,8 +482,13 @@ def split_by_section(value, data: Mapping[str, Any]) -> Callable[[str], Any]:
     return lambda section_id: groups.get(section_id, empty)
 
 
-def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=None) -> dict[str, Any]:
-    """Run every section through ``engine`` and merge the results in section order."""
+def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=None,
+                 beside: Callable[[], Any] = lambda: None) -> dict[str, Any]:
+    """Run every section through ``engine`` and merge the results in section order.
+
+    ``beside()`` runs once, as the first section's results arrive (before they reach the sinks), or after
+    the engine when there is no section: the line-level work no section needs, done while the others run.
+    """
     from routesag.engine import InProcess  # the engine module imports this one
 
     tasks = list(section_tasks(phases, data, ctx.section_shapers))
@@ -475,6 +499,8 @@ def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=
         on_section("", 0, len(tasks))
     try:
         for done, (result, section_ctx) in enumerate(engine.map(tasks), start=1):
+            if done == 1:
+                beside()
             for sink in ctx.section_sinks:
                 result = sink(result)
             parts.append(result)
@@ -484,6 +510,8 @@ def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=
                      section_ctx.notes.get("section_seconds", {}).get(section_id, float("nan")))
             if on_section:
                 on_section(section_id, done, len(tasks))
+        if not tasks:
+            beside()
     finally:
         if made:
             engine.close()

@@ -73,3 +73,52 @@ def test_broken_stage_fails_only_when_used():
     assert "failed to load" in broken.description
     with pytest.raises(PipelineError, match="no module named foo"):
         broken.run({}, None)
+
+
+class Logged(Stage):
+    """A stage that records when it ran (in ``log``) and provides its datasets."""
+
+    def __init__(self, name, requires, provides, log, per_section=False, beside=False):
+        self.name, self.requires, self.provides, self.log = name, tuple(requires), tuple(provides), log
+        self.per_section, self.beside_sections = per_section, beside
+
+    def run(self, data, ctx):
+        self.log.append(self.name)
+        return {d: [len(self.log)] for d in self.provides}
+
+
+def beside_chain(log, table_needed_by_section=False):
+    import pandas as pd
+
+    sections = Logged("sections", ["project"], ["sections", "spans"], log)
+    sections.run = lambda data, ctx: (log.append("sections"),
+                                      {"sections": pd.DataFrame({"section_id": ["S1", "S2"]}),
+                                       "spans": pd.DataFrame({"section_id": ["S1", "S2"]})})[1]
+    return [sections,
+            Logged("table", ["sections"], ["table"], log, beside=True),
+            Logged("heavy", ["sections"] + (["table"] if table_needed_by_section else []), ["rows"], log,
+                   per_section=True),
+            Logged("finish", ["rows", "table"], ["done"], log)]
+
+
+def test_a_stage_beside_the_sections_runs_as_the_first_section_arrives():
+    from routesag.pipeline import RunContext, beside_sections, run_chain, split_phases
+
+    log = []
+    chain = beside_chain(log)
+    assert [s.name for s in beside_sections(split_phases(chain))] == ["table"]
+    ctx = RunContext()
+    ctx.section_sinks.append(lambda result: (log.append("sink"), result)[1])
+    data = run_chain(chain, {"project": None}, ctx)
+    assert log == ["sections", "heavy", "table", "sink", "heavy", "sink", "finish"]
+    assert data["done"] == [len(log)] and data["table"] == [3]
+
+
+def test_a_stage_a_section_needs_is_never_beside_the_sections():
+    from routesag.pipeline import RunContext, beside_sections, run_chain, split_phases
+
+    log = []
+    chain = beside_chain(log, table_needed_by_section=True)
+    assert beside_sections(split_phases(chain)) == []
+    run_chain(chain, {"project": None}, RunContext())
+    assert log == ["sections", "table", "heavy", "heavy", "finish"]

@@ -40,6 +40,7 @@ class BuildSagTable(Stage):
     requires = ("project", "sections", "wire_spans", "tensions")
     provides = ("sag_table",)
     description = "sag and tension of the ruling span and every span, -20..+50 C in 5 C steps, initial, bare"
+    beside_sections = True  # for the crews and the output only: no section waits for it
 
     def run(self, data, ctx):
         return {"sag_table": sag_table(data["project"], data["sections"], data["wire_spans"], data["tensions"])}
