@@ -16,6 +16,7 @@ section order (:func:`merge_results`).
 from __future__ import annotations
 
 import logging
+import threading
 import time
 from dataclasses import dataclass, field
 from importlib.metadata import entry_points
@@ -404,15 +405,20 @@ def run_chain(chain: list[Stage], data: dict[str, Any], ctx: RunContext, progres
     phases = split_phases(chain)
     beside = beside_sections(phases) if phases.section else []
     run_stages([s for s in phases.start if s not in beside], data, ctx, progress)
-    if phases.section:
-        if progress:
-            for stage in phases.section:
-                progress(stage.name)
-        data.update(run_sections(phases, data, ctx, engine, on_section,
-                                 beside=lambda: run_stages(beside, data, ctx, progress)))
-    for name, geometry in ((n, g) for s in phases.section for n, g in s.output_layers.items()):
-        ctx.output_layers.setdefault(name, geometry)
-    return run_stages(phases.finish, data, ctx, progress)
+    closing: list[threading.Thread] = []
+    try:
+        if phases.section:
+            if progress:
+                for stage in phases.section:
+                    progress(stage.name)
+            data.update(run_sections(phases, data, ctx, engine, on_section,
+                                     beside=lambda: run_stages(beside, data, ctx, progress), closing=closing))
+        for name, geometry in ((n, g) for s in phases.section for n, g in s.output_layers.items()):
+            ctx.output_layers.setdefault(name, geometry)
+        return run_stages(phases.finish, data, ctx, progress)
+    finally:
+        for closer in closing:  # the run ends with its worker processes gone
+            closer.join()
 
 
 @dataclass
@@ -483,13 +489,15 @@ def split_by_section(value, data: Mapping[str, Any]) -> Callable[[str], Any]:
 
 
 def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=None,
-                 beside: Callable[[], Any] = lambda: None) -> dict[str, Any]:
+                 beside: Callable[[], Any] = lambda: None, closing: list | None = None) -> dict[str, Any]:
     """Run every section through ``engine`` and merge the results in section order.
 
     ``beside()`` runs once, as the first section's results arrive (before they reach the sinks), or after
     the engine when there is no section: the line-level work no section needs, done while the others run.
+    ``closing``: when given, a worker pool made here that served every section is closed by a thread added
+    to it (its processes exit while the finish runs; the caller joins it), not before returning.
     """
-    from routesag.engine import InProcess  # the engine module imports this one
+    from routesag.engine import InProcess, WorkerPool  # the engine module imports this one
 
     tasks = list(section_tasks(phases, data, ctx.section_shapers))
     made = engine is not None and not hasattr(engine, "map")
@@ -512,6 +520,10 @@ def run_sections(phases: Phases, data, ctx: RunContext, engine=None, on_section=
                 on_section(section_id, done, len(tasks))
         if not tasks:
             beside()
+        if made and closing is not None and isinstance(engine, WorkerPool):
+            closing.append(threading.Thread(target=engine.close, name="routesag-pool-close", daemon=True))
+            closing[-1].start()
+            made = False
     finally:
         if made:
             engine.close()
