@@ -168,4 +168,22 @@ def test_looked_up_columns_are_the_left_merges_or_none(right_rows):
             assert len(merged) != len(left) or merged["required_m"].isna().any()
         else:
             pd.testing.assert_frame_equal(left.assign(**found), merged)
-        pd.testing.assert_frame_equal(output.joined(left.to_dict("list"), [(r, on)]), merged)  # either way
+        pd.testing.assert_frame_equal(pd.DataFrame(output.joined(left.to_dict("list"), [(r, on)])), merged)  # either way
+
+
+@pytest.mark.parametrize("rated_dtype", ["float64", "Float64"])
+def test_percent_of_rated_strength_is_the_frame_arithmetic(rated_dtype):
+    """The conductor row's percentages, computed on arrays, equal pandas' own on a frame (bit for bit, dtype)."""
+    frame = pd.DataFrame({"wire": ["a", "b", "c"], "span_id": ["S1", "S1", "S2"],
+                          "horizontal_tension_n": [21_000.0, 23_456.7, 1.0 / 3.0],
+                          "max_tension_n": [22_000.0, 24_000.1, 2.0 / 3.0],
+                          "rated_strength_n": pd.array([140_000.0, 97_900.0, None], dtype=rated_dtype)})
+    expected = frame.assign(
+        tension_percent_rts=100.0 * frame["horizontal_tension_n"] / frame["rated_strength_n"],
+        max_tension_percent_rts=100.0 * frame["max_tension_n"] / frame["rated_strength_n"]).drop(
+        columns="rated_strength_n")
+    columns = {"wire": list(frame["wire"]), "span_id": list(frame["span_id"]),
+               "horizontal_tension_n": frame["horizontal_tension_n"].to_numpy(),
+               "max_tension_n": list(frame["max_tension_n"]), "rated_strength_n": frame["rated_strength_n"].array}
+    got = pd.DataFrame(output.with_percent_rts(columns))
+    pd.testing.assert_frame_equal(got, expected[["span_id", "wire"] + list(expected.columns[2:])], check_exact=True)
