@@ -1,9 +1,10 @@
 """Stages: assemble the output layers, and write them atomically to one GeoPackage."""
 from __future__ import annotations
 
+import copy
 import json
 from collections import OrderedDict
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from datetime import datetime, timezone
 
 import geopandas as gpd
@@ -154,7 +155,15 @@ class LayerStream:
 def summaries(profiles) -> Profiles:
     """The profiles without their station arrays (what the line-level finish needs of them)."""
     stations, points = np.empty(0), np.empty((0, 3))
-    return Profiles(replace(p, stations_m=stations, xyz=points) for p in profiles)
+    return Profiles(_without_stations(p, stations, points) for p in profiles)
+
+
+def _without_stations(profile, stations, points):
+    """``dataclasses.replace(profile, stations_m=stations, xyz=points)`` without its per-call cost (it runs
+    ``__init__`` again; a line has thousands of profiles)."""
+    light = copy.copy(profile)
+    light.stations_m, light.xyz = stations, points
+    return light
 
 
 def line_level_layers(data) -> OrderedDict:
@@ -332,16 +341,20 @@ def wire_lengths_m(parts) -> list[float]:
     """3D length of each polyline (n, 3) [m]: the sum of its segments' lengths, each sqrt(dx^2 + dy^2 + dz^2).
 
     Summed in the order ``np.linalg.norm(np.diff(p, axis=0), axis=1).sum()`` sums (the same value to the
-    bit), without its per-call overhead: one profile is a few hundred points, a line thousands of profiles.
+    bit: each polyline's segment lengths are one contiguous run, summed alone), without its per-call overhead:
+    one profile is a few hundred points, a line thousands of profiles.
     """
-    lengths = []
-    for p in parts:
-        d = p[1:] - p[:-1]
-        d *= d
-        squared = d[:, 0] + d[:, 1]
-        squared += d[:, 2]
-        lengths.append(float(np.sqrt(squared).sum()))
-    return lengths
+    parts = list(parts)
+    if not parts:
+        return []
+    points = np.concatenate(parts)
+    d = points[1:] - points[:-1]
+    d *= d
+    squared = d[:, 0] + d[:, 1]
+    squared += d[:, 2]
+    segment = np.sqrt(squared)   # segment i joins points i and i + 1; those across two polylines are skipped
+    bounds = np.cumsum([0] + [len(p) for p in parts]).tolist()
+    return [float(segment[a:max(b - 1, a)].sum()) for a, b in zip(bounds[:-1], bounds[1:])]
 
 
 def joined(columns: dict, joins) -> dict:

@@ -122,8 +122,9 @@ def test_input_hashes_are_those_of_the_files(deep):
 
 def test_wire_lengths_at_once_equal_each_polyline_measured_alone():
     rng = np.random.default_rng(8)
-    parts = [np.cumsum(rng.normal(size=(n, 3)) * 50.0, axis=0) + 5e5 for n in (2, 3, 17, 1, 250, 2)]
-    alone = [float(np.linalg.norm(np.diff(p, axis=0), axis=1).sum()) for p in parts]
+    sizes = (2, 3, 17, 1, 250, 2, 0, 129, 1000, 7, 136)  # one run of segments each, at any offset in the stack
+    parts = [np.cumsum(rng.normal(size=(n, 3)) * 50.0, axis=0) + 5e5 for n in sizes]
+    alone = [float(np.linalg.norm(np.diff(p, axis=0), axis=1).sum()) if len(p) else 0.0 for p in parts]
     assert output.wire_lengths_m(parts) == alone  # bit for bit: the same sums, not only close
     assert output.wire_lengths_m([]) == []
 
