@@ -35,13 +35,16 @@ def hand_over_ground(profiles, ground) -> None:
     order; None for none), so :func:`sample_under` need not sample it again.
 
     It is kept with each profile's ``xyz`` array itself: a profile whose points were replaced afterwards (a
-    plugin's stage in between) no longer matches, and its terrain is sampled afresh.
+    plugin's stage in between) no longer matches, and its terrain is sampled afresh. The arrays are made
+    read-only, so no stage can move the points in place behind the terrain sampled under them.
     """
     if ground is None:
         return
     bounds = np.cumsum([0] + [len(p.xyz) for p in profiles])
     if bounds[-1] != len(ground):
         raise ValueError("handed-over terrain does not match the profiles' stations")
+    for p in profiles:
+        p.xyz.flags.writeable = False
     setattr(profiles, HANDED_OVER, [(p.xyz, ground[a:b]) for p, a, b in zip(profiles, bounds[:-1], bounds[1:])])
 
 

@@ -59,6 +59,14 @@ def test_changed_points_are_sampled_afresh(tmp_path):
         np.testing.assert_array_equal(ground[key], values)
 
 
+def test_handed_over_points_cannot_move_in_place(tmp_path):
+    path = tmp_path / "terrain.tif"
+    rough_raster(path)
+    profiles = built_section(path)
+    with pytest.raises(ValueError, match="read-only"):
+        profiles[0].xyz[:, 0] += 1.0       # the terrain handed over would no longer lie under the wire
+
+
 def test_no_hand_over_without_terrain():
     cases, _ = section_cases(np.array([X0, Y0, 0.0]))
     built, ground = profiles_and_ground(cases, 1.0)
