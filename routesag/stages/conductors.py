@@ -35,7 +35,7 @@ class BuildConductors(Stage):
         terrain = TerrainView(data["terrain"], data["work_crs"])
         built, ground = profiles_and_ground(cases, station_m, terrain)
         profiles = Profiles(built)
-        hand_over_ground(profiles, ground)
+        hand_over_ground(profiles, ground, terrain.sampler, terrain.crs)
         return {"conductors": profiles}
 
 

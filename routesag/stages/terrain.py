@@ -30,9 +30,9 @@ def warn_implausible(ctx, raster, label="terrain", key="terrain_nodata") -> None
 HANDED_OVER = "_ground_handed_over"
 
 
-def hand_over_ground(profiles, ground) -> None:
-    """Leave on ``profiles`` the terrain [m] already sampled under all their stations (stacked in profile
-    order; None for none), so :func:`sample_under` need not sample it again.
+def hand_over_ground(profiles, ground, terrain, crs) -> None:
+    """Leave on ``profiles`` the terrain [m] already sampled from ``terrain`` (points in ``crs``) under all
+    their stations (stacked in profile order; None for none), so :func:`sample_under` need not sample it again.
 
     It is kept with each profile's ``xyz`` array itself: a profile whose points were replaced afterwards (a
     plugin's stage in between) no longer matches, and its terrain is sampled afresh. The arrays are made
@@ -45,14 +45,16 @@ def hand_over_ground(profiles, ground) -> None:
         raise ValueError("handed-over terrain does not match the profiles' stations")
     for p in profiles:
         p.xyz.flags.writeable = False
-    setattr(profiles, HANDED_OVER, [(p.xyz, ground[a:b]) for p, a, b in zip(profiles, bounds[:-1], bounds[1:])])
+    setattr(profiles, HANDED_OVER, (terrain, crs, [(p.xyz, ground[a:b]) for p, a, b in
+                                                   zip(profiles, bounds[:-1], bounds[1:])]))
 
 
-def handed_over(profiles) -> StationField | None:
-    """The terrain :func:`hand_over_ground` left on ``profiles``, by profile key, when every profile still has
-    the very points it was sampled under; else None."""
-    kept = getattr(profiles, HANDED_OVER, None)
-    if kept is None or len(kept) != len(profiles):
+def handed_over(profiles, terrain, crs) -> StationField | None:
+    """The terrain :func:`hand_over_ground` left on ``profiles``, by profile key, when it was sampled from this
+    ``terrain`` in this ``crs`` and every profile still has the very points it was sampled under; else None."""
+    sampled_from, sampled_crs, kept = getattr(profiles, HANDED_OVER, (None, None, None))
+    same_crs = sampled_crs is crs or sampled_crs == crs
+    if sampled_from is not terrain or not same_crs or kept is None or len(kept) != len(profiles):
         return None
     if not all(p.xyz is xyz for p, (xyz, _) in zip(profiles, kept)):
         return None
@@ -67,7 +69,7 @@ def sample_under(profiles, terrain, crs) -> StationField:
     span (its wires and load cases) are sampled together, so each span costs one window read whatever the
     number of load cases.
     """
-    ground = handed_over(profiles)
+    ground = handed_over(profiles, terrain, crs)
     if ground is not None:
         return ground
     ground = StationField()
