@@ -12,6 +12,7 @@ from routesag.physics.conductor3d import conductor_points, conductor_stations_st
 from routesag.physics.stacked import StackedStations
 from routesag.pipeline import Stage
 from routesag.profiles import ConductorProfile, Profiles
+from routesag.stages.terrain import hand_over_ground
 
 #: Metres per degree of latitude (mean), to size a lat/lon raster's cells.
 METRES_PER_DEGREE = 111_320.0
@@ -32,7 +33,10 @@ class BuildConductors(Stage):
         ctx.notes["station_m"] = station_m
         cases = span_cases(data["wire_spans"], data["tensions"], data["structure_loads"])
         terrain = TerrainView(data["terrain"], data["work_crs"])
-        return {"conductors": Profiles(span_profiles(cases, station_m, terrain))}
+        built, ground = profiles_and_ground(cases, station_m, terrain)
+        profiles = Profiles(built)
+        hand_over_ground(profiles, ground, terrain.sampler, terrain.crs)
+        return {"conductors": profiles}
 
 
 @dataclass(frozen=True)
@@ -44,7 +48,7 @@ class TerrainView:
 
     def exact_stations(self, stations: StackedStations, wires: "HangingWires"):
         """Stations plus the grid-line crossings and quadratic vertices of :mod:`routesag.physics.bilinear`,
-        and the wires' points there (working CRS).
+        the wires' points there (working CRS) and the terrain under them [m] (NaN over nodata).
 
         The wires of one span (its wires and load cases, consecutive) are sampled together, from one window.
         """
@@ -56,7 +60,8 @@ class TerrainView:
 
         def clearance(s, wire):
             asked["xyz"] = xyz = wires.at(s, wire)
-            return xyz[:, 2] - self.sample_in_groups(xyz, wires.span_group[wire])
+            asked["ground"] = ground = self.sample_in_groups(xyz, wires.span_group[wire])
+            return xyz[:, 2] - ground
 
         found, source = exact_minimum_stations_stacked(stations, grid_uv, clearance, with_source=True)
         xyz = np.empty((len(found.values), 3))
@@ -64,12 +69,17 @@ class TerrainView:
         for axis in range(3):
             xyz[:, axis] = asked["xyz"][:, axis][known]
         xyz[vertex] = wires.at(found.values[vertex], found.wire[vertex])
-        return found, xyz
+        # the terrain is a pointwise function of plan position: the ends' values stand, vertices are new points
+        ground = asked["ground"][known]
+        ground[vertex] = self.sample_in_groups(xyz[vertex], wires.span_group[found.wire[vertex]])
+        return found, xyz, ground
 
     def sample_in_groups(self, xyz, group):
         """Terrain under points [m], one sampler call per run of equal ``group`` (its window is read once)."""
-        cuts = np.concatenate([[0], np.flatnonzero(group[1:] != group[:-1]) + 1, [len(group)]])
         ground = np.empty(len(group))
+        if not len(group):
+            return ground
+        cuts = np.concatenate([[0], np.flatnonzero(group[1:] != group[:-1]) + 1, [len(group)]])
         for a, b in zip(cuts[:-1], cuts[1:]):
             ground[a:b] = self.sampler.sample(xyz[a:b, 0], xyz[a:b, 1], crs=self.crs)
         return ground
@@ -150,11 +160,18 @@ def span_profiles(cases, station_m: float, terrain: TerrainView | None = None) -
     All entries are computed at once on stacked stations; the entries of one span (its wires and load cases,
     consecutive) read the terrain together, so each span costs one window read.
     """
+    return profiles_and_ground(cases, station_m, terrain)[0]
+
+
+def profiles_and_ground(cases, station_m: float, terrain: TerrainView | None = None):
+    """:func:`span_profiles`, and with ``terrain`` the terrain under all their stations, stacked in profile
+    order (what the exact-minimum search sampled) [m]; None without ``terrain``."""
     wires = HangingWires(cases, station_m)
     if terrain is None:
         stations = wires.stations
-        return wires.profiles(stations, wires.at(stations.values, stations.wire))
-    return wires.profiles(*terrain.exact_stations(wires.stations, wires))
+        return wires.profiles(stations, wires.at(stations.values, stations.wire)), None
+    found, xyz, ground = terrain.exact_stations(wires.stations, wires)
+    return wires.profiles(found, xyz), ground
 
 
 class HangingWires:

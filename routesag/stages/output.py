@@ -1,9 +1,10 @@
 """Stages: assemble the output layers, and write them atomically to one GeoPackage."""
 from __future__ import annotations
 
+import copy
 import json
 from collections import OrderedDict
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from functools import partial
 from datetime import datetime, timezone
 
@@ -184,7 +185,15 @@ class LayerStream:
 def summaries(profiles) -> Profiles:
     """The profiles without their station arrays (what the line-level finish needs of them)."""
     stations, points = np.empty(0), np.empty((0, 3))
-    return Profiles(replace(p, stations_m=stations, xyz=points) for p in profiles)
+    return Profiles(_without_stations(p, stations, points) for p in profiles)
+
+
+def _without_stations(profile, stations, points):
+    """``dataclasses.replace(profile, stations_m=stations, xyz=points)`` without its per-call cost (it runs
+    ``__init__`` again; a line has thousands of profiles)."""
+    light = copy.copy(profile)
+    light.stations_m, light.xyz = stations, points
+    return light
 
 
 def line_level_layers(data) -> OrderedDict:
@@ -347,36 +356,58 @@ def conductor_rows(profiles, clearance, case_info, ends) -> tuple[pd.DataFrame, 
     columns["length_m"] = wire_lengths_m([p.xyz for p in profiles])
     columns["swung_sag_m"] = [p.swung_sag_m for p in profiles]
     columns["blowout_m"] = [p.blowout_m for p in profiles]
-    frame = pd.DataFrame()
     if profiles:
-        frame = joined(columns, ((ends, ENDS_KEY), (case_info, CASE_KEY), (clearance, CLEARANCE_KEY)))
-        frame["tension_percent_rts"] = 100.0 * frame["horizontal_tension_n"] / frame["rated_strength_n"]
-        frame["max_tension_percent_rts"] = 100.0 * frame["max_tension_n"] / frame.pop("rated_strength_n")
-        order = ["span_id", "from_id", "to_id", "section_id", "wire", "load_case"]
-        frame = frame[order + [c for c in frame.columns if c not in order]]
+        added = joined(columns, ((ends, ENDS_KEY), (case_info, CASE_KEY), (clearance, CLEARANCE_KEY)))
+        frame = pd.DataFrame(with_percent_rts(added))   # built once, in its final column order
+    else:
+        frame = pd.DataFrame()
     return frame, linestrings_z_wkb([p.xyz for p in profiles])
+
+
+#: The columns a conductor row starts with; the others follow in the order they were added.
+LEADING_COLUMNS = ("span_id", "from_id", "to_id", "section_id", "wire", "load_case")
+
+
+def with_percent_rts(columns: dict) -> dict:
+    """``columns`` (arrays or lists by name) with the tensions as a percentage of the rated strength in place of
+    the rated strength, the leading columns first."""
+    rated = columns.pop("rated_strength_n")
+    if isinstance(rated, pd.api.extensions.ExtensionArray) and not isinstance(rated.dtype, np.dtype):
+        rated = pd.Series(rated)   # a nullable column: pandas' own arithmetic, as a frame's would be
+    else:
+        rated = np.asarray(rated)
+    for name, tension in (("tension_percent_rts", "horizontal_tension_n"),
+                          ("max_tension_percent_rts", "max_tension_n")):
+        percent = 100.0 * np.asarray(columns[tension], dtype=float) / rated
+        columns[name] = percent.array if isinstance(percent, pd.Series) else percent
+    order = [c for c in LEADING_COLUMNS if c in columns] + [c for c in columns if c not in LEADING_COLUMNS]
+    return {c: columns[c] for c in order}
 
 
 def wire_lengths_m(parts) -> list[float]:
     """3D length of each polyline (n, 3) [m]: the sum of its segments' lengths, each sqrt(dx^2 + dy^2 + dz^2).
 
     Summed in the order ``np.linalg.norm(np.diff(p, axis=0), axis=1).sum()`` sums (the same value to the
-    bit), without its per-call overhead: one profile is a few hundred points, a line thousands of profiles.
+    bit: each polyline's segment lengths are one contiguous run, summed alone), without its per-call overhead:
+    one profile is a few hundred points, a line thousands of profiles.
     """
-    lengths = []
-    for p in parts:
-        d = p[1:] - p[:-1]
-        d *= d
-        squared = d[:, 0] + d[:, 1]
-        squared += d[:, 2]
-        lengths.append(float(np.sqrt(squared).sum()))
-    return lengths
+    parts = list(parts)
+    if not parts:
+        return []
+    points = np.concatenate(parts)
+    d = points[1:] - points[:-1]
+    d *= d
+    squared = d[:, 0] + d[:, 1]
+    squared += d[:, 2]
+    segment = np.sqrt(squared)   # segment i joins points i and i + 1; those across two polylines are skipped
+    bounds = np.cumsum([0] + [len(p) for p in parts]).tolist()
+    return [float(segment[a:max(b - 1, a)].sum()) for a, b in zip(bounds[:-1], bounds[1:])]
 
 
-def joined(columns: dict, joins) -> pd.DataFrame:
-    """The frame of ``columns`` (lists by name) left-merged with each ``(table, key)`` of ``joins`` in turn: by
-    looking each row's key up when that gives the merge's rows (a merge costs milliseconds per call, and a line
-    has three per section), else by the merges themselves."""
+def joined(columns: dict, joins) -> dict:
+    """``columns`` (lists or arrays by name) left-merged with each ``(table, key)`` of ``joins`` in turn, as
+    columns by name: by looking each row's key up when that gives the merge's rows (a merge costs
+    milliseconds per call, and a line has three per section), else by the merges themselves."""
     added = dict(columns)
     for right, on in joins:
         found = looked_up(added, right, on)
@@ -384,22 +415,34 @@ def joined(columns: dict, joins) -> pd.DataFrame:
             frame = pd.DataFrame(columns)
             for table, key in joins:
                 frame = frame.merge(table, on=key, how="left")
-            return frame
+            return {c: frame[c].array for c in frame.columns}
         added.update(found)
-    return pd.DataFrame(added)
+    return added
 
 
 def looked_up(columns: dict, right: pd.DataFrame, on) -> dict | None:
-    """``right``'s other columns for each row of ``columns`` (lists by name), found by the ``on`` key, as a
-    left merge would add them; None when a key of ``right`` repeats, a row finds none or a name clashes
+    """``right``'s other columns for each row of ``columns`` (lists or arrays by name), found by the ``on`` key,
+    as a left merge would add them; None when a key of ``right`` repeats, a row finds none or a name clashes
     (then the merge itself decides)."""
-    position = {k: i for i, k in enumerate(zip(*(right[c] for c in on)))}
-    wanted = [position.get(k, -1) for k in zip(*(columns[c] for c in on))]
     others = [c for c in right.columns if c not in on]
-    if len(position) < len(right) or -1 in wanted or set(others) & set(columns):
+    if set(others) & set(columns):
         return None
-    taken = right[others].take(wanted)
-    return {c: taken[c].array for c in others}
+    position = {k: i for i, k in enumerate(zip(*(_plain(right[c]) for c in on)))}
+    if len(position) < len(right):
+        return None
+    wanted = [position.get(k, -1) for k in zip(*(_plain(columns[c]) for c in on))]
+    if -1 in wanted:
+        return None
+    wanted = np.array(wanted, dtype=np.int64)
+    return {c: array.take(wanted) for c, array in ((c, right[c].array) for c in others)}
+
+
+def _plain(values) -> list:
+    """A column's values as a list of Python objects: iterating a pandas column item by item costs
+    microseconds each."""
+    if isinstance(values, list):
+        return values
+    return np.asarray(values, dtype=object).tolist()
 
 
 def empty_layer(columns, crs) -> gpd.GeoDataFrame:

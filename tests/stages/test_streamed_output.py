@@ -122,8 +122,9 @@ def test_input_hashes_are_those_of_the_files(deep):
 
 def test_wire_lengths_at_once_equal_each_polyline_measured_alone():
     rng = np.random.default_rng(8)
-    parts = [np.cumsum(rng.normal(size=(n, 3)) * 50.0, axis=0) + 5e5 for n in (2, 3, 17, 1, 250, 2)]
-    alone = [float(np.linalg.norm(np.diff(p, axis=0), axis=1).sum()) for p in parts]
+    sizes = (2, 3, 17, 1, 250, 2, 0, 129, 1000, 7, 136)  # one run of segments each, at any offset in the stack
+    parts = [np.cumsum(rng.normal(size=(n, 3)) * 50.0, axis=0) + 5e5 for n in sizes]
+    alone = [float(np.linalg.norm(np.diff(p, axis=0), axis=1).sum()) if len(p) else 0.0 for p in parts]
     assert output.wire_lengths_m(parts) == alone  # bit for bit: the same sums, not only close
     assert output.wire_lengths_m([]) == []
 
@@ -168,7 +169,7 @@ def test_looked_up_columns_are_the_left_merges_or_none(right_rows):
             assert len(merged) != len(left) or merged["required_m"].isna().any()
         else:
             pd.testing.assert_frame_equal(left.assign(**found), merged)
-        pd.testing.assert_frame_equal(output.joined(left.to_dict("list"), [(r, on)]), merged)  # either way
+        pd.testing.assert_frame_equal(pd.DataFrame(output.joined(left.to_dict("list"), [(r, on)])), merged)  # either way
 
 
 def test_line_level_layers_reach_the_file_as_the_first_section_arrives(deep, monkeypatch):
@@ -201,3 +202,21 @@ def test_the_styles_legend_from_the_written_rows_equals_the_one_read_from_the_fi
     cases = [rule[1][2] for rule in read[1]]
     assert cases == [c["name"] for c in result.project.settings["load_cases"]]  # order of the project's cases
     assert all(f"load case {case}" in qml for case in cases)
+
+
+@pytest.mark.parametrize("rated_dtype", ["float64", "Float64"])
+def test_percent_of_rated_strength_is_the_frame_arithmetic(rated_dtype):
+    """The conductor row's percentages, computed on arrays, equal pandas' own on a frame (bit for bit, dtype)."""
+    frame = pd.DataFrame({"wire": ["a", "b", "c"], "span_id": ["S1", "S1", "S2"],
+                          "horizontal_tension_n": [21_000.0, 23_456.7, 1.0 / 3.0],
+                          "max_tension_n": [22_000.0, 24_000.1, 2.0 / 3.0],
+                          "rated_strength_n": pd.array([140_000.0, 97_900.0, None], dtype=rated_dtype)})
+    expected = frame.assign(
+        tension_percent_rts=100.0 * frame["horizontal_tension_n"] / frame["rated_strength_n"],
+        max_tension_percent_rts=100.0 * frame["max_tension_n"] / frame["rated_strength_n"]).drop(
+        columns="rated_strength_n")
+    columns = {"wire": list(frame["wire"]), "span_id": list(frame["span_id"]),
+               "horizontal_tension_n": frame["horizontal_tension_n"].to_numpy(),
+               "max_tension_n": list(frame["max_tension_n"]), "rated_strength_n": frame["rated_strength_n"].array}
+    got = pd.DataFrame(output.with_percent_rts(columns))
+    pd.testing.assert_frame_equal(got, expected[["span_id", "wire"] + list(expected.columns[2:])], check_exact=True)
