@@ -110,9 +110,10 @@ def section_change_of_state_by_law(spans_m, dz_m, tension1_n, weight1_n_m, tempe
                          f"state 2 w = {weight2_n_m:g} N/m, t = {temperature2_c:g} C)")
     # the root of the same residual, from a narrower bracket around the ruling span's parabolic estimate
     try:
-        guess = float(parabolic_change_of_state(ruling_span(spans2), tension1_n, weight1_n_m, temperature1_c,
-                                                weight2_n_m, temperature2_c, float(law2.axial_stiffness_n), 1.0,
-                                                law2.expansion_per_c))
+        with np.errstate(all="ignore"):  # an absurd modulus overflows the estimate: then it is not finite
+            guess = float(parabolic_change_of_state(ruling_span(spans2), tension1_n, weight1_n_m, temperature1_c,
+                                                    weight2_n_m, temperature2_c, float(law2.axial_stiffness_n),
+                                                    1.0, law2.expansion_per_c))
     except SolveError:  # no estimate: search the whole range
         guess = math.nan
     if math.isfinite(guess):
