@@ -188,8 +188,13 @@ class TerrainSampler:
         """Close the raster; safe to call twice."""
         self._ds.close()
         if self._env is not None:
-            self._env.__exit__(None, None, None)
-            self._env = None
+            env, self._env = self._env, None
+            try:
+                env.__exit__(None, None, None)
+            except rasterio.errors.EnvError:
+                # rasterio's environments nest: a sampler opened first and closed first removes the
+                # environment the later one entered; this one's settings went with it, nothing is left to undo
+                pass
 
     def __repr__(self):
         return (f"TerrainSampler({str(self._path)!r}, {self._ds.width}x{self._ds.height} "

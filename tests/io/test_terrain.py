@@ -319,3 +319,17 @@ def test_held_windows_do_not_grow_into_blocks_the_read_would_not_decode(tmp_path
     assert (window.row_off, window.col_off) == (128, 128)
     assert window.row_off + window.height <= 192 and window.col_off + window.width <= 192
     assert window.height > plain.last_window.height  # it did grow, inside the block
+
+
+def test_samplers_closed_in_the_order_they_were_opened_close_cleanly(tmp_path, rng):
+    """A terrain and a second raster (a surface model, a helper thread's own handle) may be closed first-opened
+    first: the later one must still read and then close without a GDAL environment error."""
+    data = rng.uniform(100.0, 140.0, size=(ROWS, COLS)).astype("float32")
+    path = write_raster(tmp_path / "two.tif", data)
+    x, y = interior_points(rng, 50, X0 + 10.0, X0 + 100.0, Y0 - 100.0, Y0 - 10.0)
+    first, second = TerrainSampler(path), TerrainSampler(path)
+    expected = second.sample(x, y)
+    first.close()
+    np.testing.assert_array_equal(second.sample(x, y), expected)
+    second.close()
+    second.close()  # twice is still safe
