@@ -42,8 +42,8 @@ class OpenOutput(Stage):
     name = "open_output"
     requires = ("project", "structures", "spans", "sections", "tensions", "work_crs")
     provides = ("output_stream",)
-    description = ("open the temporary GeoPackage, write the line-level layers and take each section's "
-                   "conductors as it finishes (batches of sections, one transaction each)")
+    description = ("open the temporary GeoPackage; the line-level layers go in as the first section arrives, "
+                   "each section's conductors as it finishes (batches of sections, one transaction each)")
 
     def run(self, data, ctx):
         project = data["project"]
