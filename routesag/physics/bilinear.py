@@ -52,10 +52,9 @@ References
 
 import numpy as np
 
-from .stacked import StackedStations
 
 __all__ = ["BOUND_M", "grid_line_crossings", "quadratic_vertex_stations", "exact_minimum_stations",
-           "exact_minimum_stations_stacked", "exact_minimum_stations_many", "zero_crossing_bounds"]
+           "exact_minimum_stations_stacked", "zero_crossing_bounds"]
 
 #: Stated bound [m]: the reported minimum clearance exceeds the true minimum along the path by at most this.
 BOUND_M = 1e-3
@@ -245,42 +244,6 @@ def _ends_and_middles(p, wire, joined):
     asked[0::2], asked[1::2] = p, middles
     asked_wire[0::2], asked_wire[1::2] = wire, wire[:-1]
     return asked, asked_wire
-
-
-def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):
-    """:func:`exact_minimum_stations` for several wires at once, asking for the terrain once per step for all.
-
-    Parameters
-    ----------
-    stations_m : list of numpy.ndarray
-        Each wire's increasing stations [m].
-    grid_uv : callable
-        ``grid_uv(list of stations) -> list of (u, v)``, one pair per wire.
-    clearance_m : callable
-        ``clearance_m(list of stations) -> list of g`` [m], one array per wire.
-
-    Returns
-    -------
-    list of numpy.ndarray
-        Each wire's stations, as :func:`exact_minimum_stations` gives them.
-    """
-    n = len(stations_m)
-
-    def per_wire(values, wire):
-        bounds = np.searchsorted(wire, np.arange(n + 1))
-        return [values[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
-
-    def stacked_uv(values, wire):  # asked in any order: sorted by wire for the lists, and back
-        order = np.argsort(wire, kind="stable")
-        uv = grid_uv(per_wire(values[order], wire[order]))
-        u, v = np.empty(len(values)), np.empty(len(values))
-        u[order], v[order] = np.concatenate([u for u, _ in uv]), np.concatenate([v for _, v in uv])
-        return u, v
-
-    def stacked_clearance(values, wire):
-        return np.concatenate(clearance_m(per_wire(values, wire)))
-
-    return exact_minimum_stations_stacked(StackedStations.of(stations_m), stacked_uv, stacked_clearance).split()
 
 
 def zero_crossing_bounds(s0_m, s1_m, f0, f1):

@@ -3,7 +3,45 @@ the stated bound, on random rasters, spans and angles (pure numpy; the bilinear 
 import numpy as np
 from hypothesis import given, settings, strategies as st
 
-from routesag.physics.bilinear import BOUND_M, exact_minimum_stations, exact_minimum_stations_many, grid_line_crossings
+from routesag.physics.bilinear import (BOUND_M, exact_minimum_stations, exact_minimum_stations_stacked,
+                                      grid_line_crossings)
+from routesag.physics.stacked import StackedStations
+
+
+def exact_minimum_stations_many(stations_m, grid_uv, clearance_m):
+    """exact_minimum_stations_stacked behind a list-per-wire interface: the terrain asked once per step for all.
+
+    Parameters
+    ----------
+    stations_m : list of numpy.ndarray
+        Each wire's increasing stations [m].
+    grid_uv : callable
+        ``grid_uv(list of stations) -> list of (u, v)``, one pair per wire.
+    clearance_m : callable
+        ``clearance_m(list of stations) -> list of g`` [m], one array per wire.
+
+    Returns
+    -------
+    list of numpy.ndarray
+        Each wire's stations, as :func:`exact_minimum_stations` gives them.
+    """
+    n = len(stations_m)
+
+    def per_wire(values, wire):
+        bounds = np.searchsorted(wire, np.arange(n + 1))
+        return [values[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
+
+    def stacked_uv(values, wire):  # asked in any order: sorted by wire for the lists, and back
+        order = np.argsort(wire, kind="stable")
+        uv = grid_uv(per_wire(values[order], wire[order]))
+        u, v = np.empty(len(values)), np.empty(len(values))
+        u[order], v[order] = np.concatenate([u for u, _ in uv]), np.concatenate([v for _, v in uv])
+        return u, v
+
+    def stacked_clearance(values, wire):
+        return np.concatenate(clearance_m(per_wire(values, wire)))
+
+    return exact_minimum_stations_stacked(StackedStations.of(stations_m), stacked_uv, stacked_clearance).split()
 
 
 def bilinear(grid, u, v):
