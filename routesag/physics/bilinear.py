@@ -131,19 +131,26 @@ def quadratic_vertex_stations(start_m, end_m, g_start, g_mid, g_end):
         Vertex stations [m] of the pieces whose quadratic opens upwards with
         its vertex strictly inside the piece (NaN clearances give none).
     """
-    vertex, keep = _vertices(start_m, end_m, g_start, g_mid, g_end)
-    return vertex[keep]
+    vertex, _ = _vertices(*(np.asarray(a, dtype=float) for a in (start_m, end_m, g_start, g_mid, g_end)))
+    return vertex
 
 
-def _vertices(start_m, end_m, g_start, g_mid, g_end):
-    """Vertex station of every piece's quadratic and whether it counts (see :func:`quadratic_vertex_stations`)."""
-    # q(t) = g_start + slope t + curvature t^2 on t in [0, 1], through the three clearances
-    curvature = 2.0 * (g_start - 2.0 * g_mid + g_end)
-    slope = -3.0 * g_start + 4.0 * g_mid - g_end
-    with np.errstate(invalid="ignore", divide="ignore"):
-        t = -slope / (2.0 * curvature)
-        keep = (curvature > 0) & (t > 0) & (t < 1)
-    return start_m + t * (end_m - start_m), keep
+def _vertices(start_m, end_m, g_start, g_mid, g_end, among=None):
+    """(vertex stations [m], piece indices) of the pieces whose vertex counts (see
+    :func:`quadratic_vertex_stations`), only among the pieces where ``among`` is True when it is given."""
+    with np.errstate(invalid="ignore", divide="ignore", under="ignore", over="ignore"):  # non-finite: no vertex
+        # q(t) = g_start + slope t + curvature t^2 on t in [0, 1], through the three clearances
+        curvature = 2.0 * (g_start - 2.0 * g_mid + g_end)
+        slope = -3.0 * g_start + 4.0 * g_mid - g_end
+        # With curvature > 0, t > 0 needs slope < 0: only those few pieces get a vertex computed.
+        candidate = (curvature > 0) & (slope < 0)
+        if among is not None:
+            candidate &= among
+        index = np.flatnonzero(candidate)
+        t = -slope[index] / (2.0 * curvature[index])
+    inside = (t > 0) & (t < 1)  # t can still underflow to 0, or be NaN from infinite clearances
+    index, t = index[inside], t[inside]
+    return start_m[index] + t * (end_m[index] - start_m[index]), index
 
 
 def exact_minimum_stations(stations_m, grid_uv, clearance_m):
@@ -225,9 +232,8 @@ def exact_minimum_stations_stacked(stations, grid_uv, clearance_m, with_source=F
     asked, asked_wire = _ends_and_middles(p, wire, joined)
     g = clearance_m(asked, asked_wire)
     g_ends = g[0::2]
-    vertex, keep = _vertices(p[:-1], p[1:], g_ends[:-1], g[1::2], g_ends[1:])
-    keep &= joined
-    result, source = pieces.with_extra(vertex[keep], wire[:-1][keep], with_source=True)
+    vertex, piece = _vertices(p[:-1], p[1:], g_ends[:-1], g[1::2], g_ends[1:], among=joined)
+    result, source = pieces.with_extra(vertex, wire[piece], with_source=True)
     if not with_source:
         return result
     return result, np.where(source < len(p), 2 * source, -1)

@@ -4,7 +4,7 @@ import numpy as np
 from hypothesis import given, settings, strategies as st
 
 from routesag.physics.bilinear import (BOUND_M, exact_minimum_stations, exact_minimum_stations_stacked,
-                                      grid_line_crossings)
+                                      grid_line_crossings, quadratic_vertex_stations)
 from routesag.physics.stacked import StackedStations
 
 
@@ -120,3 +120,22 @@ def test_many_wires_at_once_equal_one_at_a_time():
     for a, b in zip(together, alone, strict=True):
         np.testing.assert_array_equal(a, b)
     assert asked == [3, 3]  # all wires in each query, also those that cross no grid line
+
+
+def test_vertex_stations_equal_the_formula_over_every_piece():
+    """Computing vertices only for pieces that curve up and fall must keep exactly the pieces (and the bits) of
+    the formula applied to every piece, NaN, infinite and underflowing clearances included."""
+    rng = np.random.default_rng(7)
+    start = np.cumsum(rng.uniform(0.1, 1.0, 5000))
+    end = start + rng.uniform(0.1, 1.0, 5000)
+    g = rng.normal(5.0, 0.05, (3, 5000))
+    g[:, :5] = [[np.nan, np.inf, 1.0, 1e300, 5e-324], [1.0, 1.0, np.inf, -1e300, 0.0], [1.0, -np.inf, 1.0, 1e300,
+                                                                                        0.0]]
+    with np.errstate(all="ignore"):
+        curvature = 2.0 * (g[0] - 2.0 * g[1] + g[2])
+        t = -(-3.0 * g[0] + 4.0 * g[1] - g[2]) / (2.0 * curvature)
+        keep = (curvature > 0) & (t > 0) & (t < 1)
+        expected = (start + t * (end - start))[keep]
+    got = quadratic_vertex_stations(start, end, *g)
+    assert 0 < keep.sum() < len(keep)
+    np.testing.assert_array_equal(got, expected)
