@@ -256,10 +256,10 @@ class TerrainSampler:
         """
         xr, yr = self._to_raster_xy(x, y, crs)
         col_f, row_f = self._pixel_coords(xr, yr)
-        inside = self._inside(col_f, row_f)
-        if col_f.ndim == 1 and col_f.size and inside.all():
+        if col_f.ndim == 1 and col_f.size and self._all_inside(col_f, row_f):
             return self._interpolate(col_f, row_f)
         out = np.full(col_f.shape, np.nan)
+        inside = self._inside(col_f, row_f)
         if inside.any():
             out[inside] = self._interpolate(col_f[inside], row_f[inside])
         return out
@@ -326,7 +326,9 @@ class TerrainSampler:
         :meth:`contains`; returns ``(u, v)`` as numpy arrays.
         """
         col_f, row_f = self._pixel_coords(*self._to_raster_xy(x, y, crs))
-        return col_f - 0.5, row_f - 0.5
+        col_f -= 0.5  # fresh arrays: shifted in place
+        row_f -= 0.5
+        return col_f, row_f
 
     def contains(self, x, y, crs=None):
         """True where a point lies within the raster footprint (edges included).
@@ -427,15 +429,27 @@ class TerrainSampler:
         return xt, yt
 
     def _pixel_coords(self, x, y):
-        """Continuous (col, row); pixel (r, c) spans [c, c+1) x [r, r+1)."""
+        """Continuous (col, row), new arrays; pixel (r, c) spans [c, c+1) x [r, r+1)."""
         inv = self._inverse
         with np.errstate(invalid="ignore", over="ignore"):  # NaN/inf inputs stay non-finite
-            return inv.a * x + inv.b * y + inv.c, inv.d * x + inv.e * y + inv.f
+            # (a x + b y) + c, evaluated in that order, in place
+            col = inv.a * x
+            col += inv.b * y
+            col += inv.c
+            row = inv.d * x
+            row += inv.e * y
+            row += inv.f
+        return col, row
 
     def _inside(self, col_f, row_f):
         with np.errstate(invalid="ignore"):
             return ((col_f >= 0) & (col_f <= self._ds.width)
                     & (row_f >= 0) & (row_f <= self._ds.height))
+
+    def _all_inside(self, col_f, row_f):
+        """:meth:`_inside` for every point, from four reductions (a NaN fails them, as it fails ``_inside``)."""
+        return bool(col_f.min() >= 0 and col_f.max() <= self._ds.width
+                    and row_f.min() >= 0 and row_f.max() <= self._ds.height)
 
     def _metres_per_horizontal_unit(self):
         if self._horizontal_crs.is_geographic:
@@ -445,14 +459,22 @@ class TerrainSampler:
 
     # -- interpolation ----------------------------------------------------------------
     def _interpolate(self, col_f, row_f):
-        """Bilinear values at in-raster pixel coordinates, tile by tile if spread."""
+        """Bilinear values at in-raster pixel coordinates, tile by tile if spread; ``col_f``, ``row_f`` are
+        overwritten (callers pass arrays of their own)."""
         height, width = self._ds.height, self._ds.width
         # Centre-based coordinates, clamped onto the outermost centres.
-        u = np.clip(col_f - 0.5, 0.0, width - 1.0)
-        v = np.clip(row_f - 0.5, 0.0, height - 1.0)
+        u, v = col_f, row_f
+        u -= 0.5
+        np.maximum(u, 0.0, out=u)
+        np.minimum(u, width - 1.0, out=u)
+        v -= 0.5
+        np.maximum(v, 0.0, out=v)
+        np.minimum(v, height - 1.0, out=v)
         # u, v >= 0, so truncation is the floor
-        c0 = np.minimum(u.astype(np.int64), max(width - 2, 0))
-        r0 = np.minimum(v.astype(np.int64), max(height - 2, 0))
+        c0 = u.astype(np.int64)
+        np.minimum(c0, max(width - 2, 0), out=c0)
+        r0 = v.astype(np.int64)
+        np.minimum(r0, max(height - 2, 0), out=r0)
         box = (int(r0.min()), int(r0.max()), int(c0.min()), int(c0.max()))
         span_cells = (box[1] - box[0] + 2) * (box[3] - box[2] + 2)
         sparse = span_cells > self.sparse_min_cells and span_cells > self.sparse_cells_per_point * u.size
@@ -481,37 +503,61 @@ class TerrainSampler:
         row_off, row_hi, col_off, col_hi = box or (int(r0.min()), int(r0.max()), int(c0.min()), int(c0.max()))
         n_rows = min(row_hi + 2, self._ds.height) - row_off
         n_cols = min(col_hi + 2, self._ds.width) - col_off
-        z = self._window_values(Window(col_off, row_off, n_cols, n_rows))
-        r, c = r0 - row_off, c0 - col_off
-        r1, c1 = np.minimum(r + 1, n_rows - 1), np.minimum(c + 1, n_cols - 1)
-        flat, stride = _flat_rows(z)  # corners by flat index: several times faster than 2-D fancy indexing
-        top, bottom = r * stride, r1 * stride
-        fu, fv = u - c0, v - r0
-        # NaN in any corner propagates, even at zero weight: that is intended.
-        return ((flat[top + c] * (1.0 - fu) + flat[top + c1] * fu) * (1.0 - fv)
-                + (flat[bottom + c] * (1.0 - fu) + flat[bottom + c1] * fu) * fv)
+        values, top, left = self._window_values(Window(col_off, row_off, n_cols, n_rows))
+        # Corners by flat index into the (C-contiguous) array holding the window: several times faster than
+        # 2-D fancy indexing. c0 <= col_hi = col_off + n_cols - 2 whenever the raster is two cells wide, so the
+        # right neighbour is one cell on (none on a one-cell-wide raster: the same cell); rows alike.
+        stride = values.shape[1]
+        flat = values.reshape(-1)
+        right, down = min(n_cols - 1, 1), stride * min(n_rows - 1, 1)
+        corner = r0 * stride
+        corner += c0
+        corner += (top - row_off) * stride + (left - col_off)
+        # ((z00 (1 - fu) + z01 fu) (1 - fv) + (z10 (1 - fu) + z11 fu) fv), in that order, in few arrays.
+        # NaN in any corner propagates, even at zero weight: that is intended. The corners lie in the window
+        # by construction (r0, c0 within the box), so take() skips its bound check ("clip" changes nothing).
+        fu = u - c0
+        gu = 1.0 - fu
+        upper = flat.take(corner, mode="clip")
+        upper *= gu
+        term = flat[right:].take(corner, mode="clip")
+        term *= fu
+        upper += term
+        lower = flat[down:].take(corner, mode="clip")
+        lower *= gu
+        flat[down + right:].take(corner, out=term, mode="clip")
+        term *= fu
+        lower += term
+        fv = gu
+        np.subtract(v, r0, out=fv)
+        lower *= fv
+        np.subtract(1.0, fv, out=fv)
+        upper *= fv
+        upper += lower
+        return upper
 
     # -- raw reads --------------------------------------------------------------------
     def _window_values(self, window):
-        """The cells of ``window`` as :meth:`_read` gives them, from a held window when one covers it."""
+        """``(values, top, left)``: a C-contiguous array holding the cells of ``window`` as :meth:`_read` gives
+        them at ``values[top:top + height, left:left + width]`` (a held window, or the read itself)."""
         if self.hold_windows <= 0:
-            return self._read(window)
+            return self._read(window), 0, 0
         for i, (held, values) in enumerate(self._held):
             top, left = window.row_off - held.row_off, window.col_off - held.col_off
             if (top >= 0 and left >= 0 and top + window.height <= held.height
                     and left + window.width <= held.width):
-                self._held.insert(0, self._held.pop(i))
-                return values[top:top + window.height, left:left + window.width]
+                if i:
+                    self._held.insert(0, self._held.pop(i))
+                return values, top, left
         block_rows, block_cols = self._ds.block_shapes[0]
         row0, row1 = self._grown(window.row_off, window.row_off + window.height, block_rows, self._ds.height)
         col0, col1 = self._grown(window.col_off, window.col_off + window.width, block_cols, self._ds.width)
         grown = Window(col0, row0, col1 - col0, row1 - row0)
         if grown.width * grown.height > self.hold_max_cells:
-            return self._read(window)
+            return self._read(window), 0, 0
         values = self._read(grown)
         self._held = [(grown, values)] + self._held[:self.hold_windows - 1]
-        top, left = window.row_off - row0, window.col_off - col0
-        return values[top:top + window.height, left:left + window.width]
+        return values, window.row_off - row0, window.col_off - col0
 
     def _grown(self, low, high, block, size):
         """Cells [low, high) along one axis grown by ``hold_margin_cells`` to be held, but, where the raster's
@@ -586,18 +632,6 @@ class TerrainSampler:
         cols, rows = np.meshgrid(cols, rows)
         t = self._ds.transform
         return t.a * cols + t.b * rows + t.c, t.d * cols + t.e * rows + t.f
-
-
-def _flat_rows(z):
-    """A 2-D array (a window, or a view into a held one) as one flat array and its row stride in elements.
-
-    ``flat[i * stride + j]`` is ``z[i, j]``; no copy when the rows' cells are adjacent in memory.
-    """
-    if z.strides[1] != z.itemsize or z.strides[0] % z.itemsize or z.strides[0] < z.shape[1] * z.itemsize:
-        z = np.ascontiguousarray(z)
-    stride = z.strides[0] // z.itemsize
-    size = (z.shape[0] - 1) * stride + z.shape[1] if z.size else 0
-    return np.lib.stride_tricks.as_strided(z, shape=(size,), strides=(z.itemsize,), writeable=False), stride
 
 
 def _open_single_band(path, assigned_crs=None):
