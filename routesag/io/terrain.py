@@ -513,9 +513,14 @@ class TerrainSampler:
         corner = r0 * stride
         corner += c0
         corner += (top - row_off) * stride + (left - col_off)
+        # The corners lie in the window by construction (r0, c0 within the box), so take() may skip its bound
+        # check ("clip" changes nothing). Clipping would turn a wrong index into a wrong ground height without a
+        # word, so the bound is checked here once per window, for every corner (two reductions).
+        if corner.size and (int(corner.min()) < 0 or int(corner.max()) + down + right >= flat.size):
+            raise RuntimeError(f"terrain {self._path}: a bilinear corner falls outside window {values.shape} "
+                               f"(rows {row_off}-{row_hi}, columns {col_off}-{col_hi})")
         # ((z00 (1 - fu) + z01 fu) (1 - fv) + (z10 (1 - fu) + z11 fu) fv), in that order, in few arrays.
-        # NaN in any corner propagates, even at zero weight: that is intended. The corners lie in the window
-        # by construction (r0, c0 within the box), so take() skips its bound check ("clip" changes nothing).
+        # NaN in any corner propagates, even at zero weight: that is intended.
         fu = u - c0
         gu = 1.0 - fu
         upper = flat.take(corner, mode="clip")

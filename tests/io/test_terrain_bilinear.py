@@ -88,7 +88,7 @@ def test_samples_equal_the_formula_bit_for_bit(tmp_path, shape, rotated):
 def test_grid_coords_are_centre_based_and_the_inputs_stay_untouched(tmp_path):
     transform = Affine(0.8, 0.3, X0, 0.25, -0.9, Y0)
     path = write(tmp_path / "z.tif", np.full((20, 30), 120.0), transform)
-    x, y = transform * (np.array([0.5, 3.25, 29.5]), np.array([0.5, 7.75, 19.5]))
+    x, y = transform @ (np.array([0.5, 3.25, 29.5]), np.array([0.5, 7.75, 19.5]))
     x0, y0 = x.copy(), y.copy()
     with TerrainSampler(path) as terrain:
         u, v = terrain.grid_coords(x, y)
@@ -99,3 +99,14 @@ def test_grid_coords_are_centre_based_and_the_inputs_stay_untouched(tmp_path):
     np.testing.assert_allclose(u, [0.0, 2.75, 29.0], atol=1e-9)
     np.testing.assert_array_equal(x, x0)  # sampling works on arrays of its own
     np.testing.assert_array_equal(y, y0)
+
+
+def test_a_corner_outside_its_window_is_an_error_not_a_clamped_height(tmp_path):
+    # The corners are read without numpy's bound check; a wrong box must fail loudly, never clamp silently.
+    path = write(tmp_path / "z.tif", np.arange(400.0).reshape(20, 20), Affine(1.0, 0.0, X0, 0.0, -1.0, Y0))
+    with TerrainSampler(path) as terrain:
+        u, v = np.array([5.25]), np.array([9.5])
+        c0, r0 = u.astype(np.int64), v.astype(np.int64)
+        assert terrain._interpolate_in_window(u.copy(), v.copy(), c0, r0, box=(9, 9, 5, 5))[0] == 9.5 * 20 + 5.25
+        with pytest.raises(RuntimeError, match="outside window"):
+            terrain._interpolate_in_window(u.copy(), v.copy(), c0, r0, box=(0, 0, 0, 0))
